@@ -1,0 +1,74 @@
+//! The last check every loader shares: a row's place in its episode, then into the table.
+
+use super::error::{Location, ProblemKind, ProblemLog};
+use super::steps::{OrderFault, StepRow, StepTableBuilder};
+use super::validate::RowChecker;
+
+/// Everything about one row apart from the vectors held by the checker.
+#[derive(Debug, Default)]
+pub struct RowMeta {
+    /// Episode name.
+    pub episode: String,
+    /// Time index.
+    pub t: i64,
+    /// Frame path relative to the campaign folder.
+    pub frame: Option<String>,
+    /// Intervention flag.
+    pub intervention: Option<bool>,
+}
+
+/// Adds a checked row to the builder unless its (episode, t) is out of order or repeated.
+pub fn accept(
+    b: &mut StepTableBuilder,
+    log: &mut ProblemLog,
+    at: Location,
+    meta: RowMeta,
+    c: &RowChecker<'_>,
+) {
+    if let Some(fault) = b.order_fault(&meta.episode, meta.t) {
+        let (kind, msg) = match fault {
+            OrderFault::Duplicate { previous_origin } => (
+                ProblemKind::DuplicateStep,
+                format!(
+                    "episode `{}` has t = {} twice (also at {previous_origin})",
+                    meta.episode, meta.t
+                ),
+            ),
+            OrderFault::Backwards { previous_t } => (
+                ProblemKind::TimeOrder,
+                format!(
+                    "t = {} after t = {previous_t} in episode `{}`: t must increase strictly",
+                    meta.t, meta.episode
+                ),
+            ),
+            OrderFault::OtherFile { source } => (
+                ProblemKind::DuplicateStep,
+                format!(
+                    "episode `{}` already appears in another file (source #{source}); keep an episode in one file",
+                    meta.episode
+                ),
+            ),
+        };
+        let field = if kind == ProblemKind::TimeOrder {
+            "t"
+        } else {
+            "episode"
+        };
+        log.error(kind, at, field, msg);
+        return;
+    }
+    let origin = match at {
+        Location::Line(n) | Location::Record(n) => n,
+        Location::File => 0,
+    };
+    b.push(StepRow {
+        episode: &meta.episode,
+        t: meta.t,
+        state: &c.state,
+        action: &c.action,
+        frame: meta.frame,
+        intervention: meta.intervention,
+        samples: &c.samples,
+        origin,
+    });
+}

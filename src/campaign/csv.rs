@@ -1,0 +1,227 @@
+//! CSV step files: a header row naming `episode`, `t`, every spec feature and action channel,
+//! and optionally `frame` and `intervention`. Ensemble samples are not carried by CSV.
+
+use std::io::Read;
+use std::path::Path;
+
+use super::accept::{RowMeta, accept};
+use super::error::{Location, ProblemKind, ProblemLog};
+use super::spec::Spec;
+use super::steps::StepTableBuilder;
+use super::validate::{RawValue, RowChecker, raw_from_text, resolve_frame};
+use crate::progress::Progress;
+
+struct Columns {
+    episode: usize,
+    t: usize,
+    features: Vec<usize>,
+    actions: Vec<usize>,
+    frame: Option<usize>,
+    intervention: Option<usize>,
+    width: usize,
+}
+
+fn columns(header: &csv::StringRecord, spec: &Spec, log: &mut ProblemLog) -> Option<Columns> {
+    let at = Location::Line(1);
+    let find = |name: &str| header.iter().position(|h| h.trim() == name);
+    let mut missing = Vec::new();
+    let mut need = |name: &str| {
+        let i = find(name);
+        if i.is_none() {
+            missing.push(name.to_string());
+        }
+        i.unwrap_or(usize::MAX)
+    };
+    let episode = need("episode");
+    let t = need("t");
+    let features: Vec<usize> = spec.features.iter().map(|f| need(&f.name)).collect();
+    let actions: Vec<usize> = spec.actions.iter().map(|c| need(&c.name)).collect();
+    for m in &missing {
+        log.error(
+            ProblemKind::MissingColumn,
+            at,
+            m.as_str(),
+            format!("column `{m}` is missing from the header"),
+        );
+    }
+    let known = |h: &str| {
+        ["episode", "t", "frame", "intervention"].contains(&h)
+            || spec.feature_index(h).is_some()
+            || spec.channel_index(h).is_some()
+    };
+    for h in header.iter().map(str::trim).filter(|h| !known(h)) {
+        log.error(
+            ProblemKind::UnknownColumn,
+            at,
+            h,
+            format!("column `{h}` is not in the spec"),
+        );
+    }
+    if !missing.is_empty() {
+        return None;
+    }
+    Some(Columns {
+        episode,
+        t,
+        features,
+        actions,
+        frame: find("frame"),
+        intervention: find("intervention"),
+        width: header.len(),
+    })
+}
+
+/// Reads one CSV step file into the builder, reporting every fault to `log`.
+pub fn read_csv<R: Read>(
+    input: R,
+    data_dir: &Path,
+    checker: &mut RowChecker<'_>,
+    b: &mut StepTableBuilder,
+    log: &mut ProblemLog,
+    progress: &Progress,
+) {
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .flexible(true)
+        .from_reader(input);
+    let header = match rdr.headers() {
+        Ok(h) if !h.is_empty() && !(h.len() == 1 && h[0].trim().is_empty()) => h.clone(),
+        Ok(_) => {
+            log.error(
+                ProblemKind::Empty,
+                Location::File,
+                "",
+                "the file has no header row",
+            );
+            return;
+        }
+        Err(e) => {
+            log.error(
+                ProblemKind::MalformedCsv,
+                Location::Line(1),
+                "",
+                format!("header: {e}"),
+            );
+            return;
+        }
+    };
+    let spec = checker_spec(checker);
+    let Some(cols) = columns(&header, &spec, log) else {
+        return;
+    };
+    let mut record = csv::StringRecord::new();
+    let mut last_byte = 0u64;
+    let mut raw_actions: Vec<RawValue> = Vec::with_capacity(cols.actions.len());
+    loop {
+        let line = rdr.position().line() + 1;
+        match rdr.read_record(&mut record) {
+            Ok(false) => break,
+            Ok(true) => {}
+            Err(e) => {
+                let at = Location::Line(e.position().map_or(line, |p| p.line()));
+                log.error(ProblemKind::MalformedCsv, at, "", e.to_string());
+                if matches!(e.kind(), csv::ErrorKind::Io(_)) {
+                    break;
+                }
+                continue;
+            }
+        }
+        let byte = record.position().map_or(last_byte, |p| p.byte());
+        progress.advance(byte.saturating_sub(last_byte));
+        last_byte = byte;
+        if progress.is_cancelled() {
+            return;
+        }
+        let at = Location::Line(record.position().map_or(line, |p| p.line()));
+        if record.len() == 1 && record[0].trim().is_empty() {
+            continue;
+        }
+        if record.len() != cols.width {
+            let msg = format!(
+                "expected {} fields as in the header, found {}",
+                cols.width,
+                record.len()
+            );
+            log.error(ProblemKind::WrongDimension, at, "", msg);
+            continue;
+        }
+        let mut ok = true;
+        let mut states = Vec::with_capacity(cols.features.len());
+        for (f, &i) in spec.features.iter().zip(&cols.features) {
+            match record[i].trim().parse::<f64>() {
+                Ok(v) => states.push(v),
+                Err(_) => {
+                    let msg = format!("`{}` is not a number", &record[i]);
+                    log.error(ProblemKind::MalformedCsv, at, f.name.as_str(), msg);
+                    ok = false;
+                }
+            }
+        }
+        ok = ok && checker.state(states.into_iter(), log, at);
+        raw_actions.clear();
+        raw_actions.extend(cols.actions.iter().map(|&i| raw_from_text(&record[i])));
+        ok &= checker.action(raw_actions.iter(), log, at, "action");
+        checker.samples.clear();
+        let t = match record[cols.t].trim().parse::<i64>() {
+            Ok(t) => t,
+            Err(_) => {
+                log.error(
+                    ProblemKind::MalformedCsv,
+                    at,
+                    "t",
+                    format!("`{}` is not an integer", &record[cols.t]),
+                );
+                continue;
+            }
+        };
+        let frame = match cols
+            .frame
+            .map(|i| record[i].trim())
+            .filter(|s| !s.is_empty())
+        {
+            None => None,
+            Some(f) => match resolve_frame(data_dir, f) {
+                Ok(p) => Some(p),
+                Err(msg) => {
+                    log.error(ProblemKind::BadFramePath, at, "frame", msg);
+                    continue;
+                }
+            },
+        };
+        let intervention = match cols.intervention.map(|i| parse_flag(&record[i])) {
+            None => None,
+            Some(Ok(v)) => v,
+            Some(Err(s)) => {
+                log.error(
+                    ProblemKind::MalformedCsv,
+                    at,
+                    "intervention",
+                    format!("`{s}` is not true/false/1/0"),
+                );
+                continue;
+            }
+        };
+        if ok {
+            let meta = RowMeta {
+                episode: record[cols.episode].trim().to_string(),
+                t,
+                frame,
+                intervention,
+            };
+            accept(b, log, at, meta, checker);
+        }
+    }
+}
+
+fn checker_spec(c: &RowChecker<'_>) -> Spec {
+    c.spec().clone()
+}
+
+fn parse_flag(s: &str) -> Result<Option<bool>, String> {
+    match s.trim() {
+        "" => Ok(None),
+        "1" | "true" | "True" | "TRUE" => Ok(Some(true)),
+        "0" | "false" | "False" | "FALSE" => Ok(Some(false)),
+        other => Err(other.to_string()),
+    }
+}

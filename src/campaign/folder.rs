@@ -1,0 +1,439 @@
+//! The campaign folder: finding its files, loading them all, and collecting every problem.
+
+use std::fs::File;
+use std::path::{Path, PathBuf};
+
+use super::error::{CampaignError, Location, Problem, ProblemKind, ProblemLog, Severity};
+use super::jsonl::read_jsonl;
+use super::numpy::{NpySetSource, NpzSource, read_numpy};
+use super::spec::CampaignFile;
+use super::steps::{StepTable, StepTableBuilder};
+use super::validate::RowChecker;
+use super::{Campaign, Round};
+use crate::progress::Progress;
+
+/// Name of the campaign description file.
+pub const CAMPAIGN_FILE: &str = "campaign.json";
+/// Folder of demonstration files.
+pub const DEMONSTRATIONS_DIR: &str = "demonstrations";
+/// Folder of rounds (`rounds/<n>/`).
+pub const ROUNDS_DIR: &str = "rounds";
+/// Folder of annotators' ledgers.
+pub const LEDGERS_DIR: &str = "ledgers";
+/// Folder of exports.
+pub const EXPORTS_DIR: &str = "exports";
+
+/// How a data file is read.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum DataFormat {
+    /// `.jsonl`
+    JsonLines,
+    /// `.csv`
+    Csv,
+    /// `.npz`
+    Npz,
+    /// `<stem>.states.npy` and siblings; the path is the `states` file.
+    NpySet,
+}
+
+/// One data file (or .npy set) in a campaign folder.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct DataFile {
+    /// Path relative to the campaign folder.
+    pub rel: PathBuf,
+    /// Format.
+    pub format: DataFormat,
+}
+
+/// Options for loading.
+#[derive(Debug, Clone)]
+pub struct LoadOptions {
+    /// Problems kept per file; further ones are only counted.
+    pub problem_cap: usize,
+    /// Treat warnings (clipped actions, missing frames) as errors.
+    pub strict: bool,
+}
+
+impl Default for LoadOptions {
+    fn default() -> Self {
+        LoadOptions {
+            problem_cap: 50,
+            strict: false,
+        }
+    }
+}
+
+/// Result of [`check_campaign`]: the campaign when it loads, and every problem found.
+#[derive(Debug)]
+pub struct CheckReport {
+    /// The loaded campaign, when no error was found.
+    pub campaign: Option<Campaign>,
+    /// Problems in file order (errors and warnings).
+    pub problems: Vec<Problem>,
+    /// Problems beyond the per-file cap, counted but not kept.
+    pub more: usize,
+}
+
+impl CheckReport {
+    /// Number of kept errors.
+    pub fn error_count(&self) -> usize {
+        self.problems
+            .iter()
+            .filter(|p| p.severity == Severity::Error)
+            .count()
+    }
+}
+
+/// Lists the data files of one folder (sorted by name; other files are ignored).
+pub fn data_files(root: &Path, rel_dir: &Path) -> std::io::Result<Vec<DataFile>> {
+    let mut out = Vec::new();
+    for entry in std::fs::read_dir(root.join(rel_dir))? {
+        let entry = entry?;
+        if !entry.file_type()?.is_file() {
+            continue;
+        }
+        let name = entry.file_name().to_string_lossy().into_owned();
+        let format = if name.starts_with('.') {
+            continue;
+        } else if name.ends_with(".jsonl") {
+            DataFormat::JsonLines
+        } else if name.ends_with(".csv") {
+            DataFormat::Csv
+        } else if name.ends_with(".npz") {
+            DataFormat::Npz
+        } else if name.ends_with(".states.npy") {
+            DataFormat::NpySet
+        } else {
+            continue;
+        };
+        out.push(DataFile {
+            rel: rel_dir.join(&name),
+            format,
+        });
+    }
+    out.sort_by(|a, b| a.rel.cmp(&b.rel));
+    Ok(out)
+}
+
+/// Round numbers found under `rounds/`, ascending.
+pub fn round_numbers(root: &Path) -> std::io::Result<Vec<u32>> {
+    let dir = root.join(ROUNDS_DIR);
+    if !dir.is_dir() {
+        return Ok(Vec::new());
+    }
+    let mut out = Vec::new();
+    for entry in std::fs::read_dir(dir)? {
+        let entry = entry?;
+        if entry.file_type()?.is_dir()
+            && let Ok(n) = entry.file_name().to_string_lossy().parse::<u32>()
+        {
+            out.push(n);
+        }
+    }
+    out.sort_unstable();
+    Ok(out)
+}
+
+/// Reads and checks `campaign.json`.
+pub fn read_campaign_file(root: &Path) -> Result<CampaignFile, Problem> {
+    let rel = PathBuf::from(CAMPAIGN_FILE);
+    let problem = |loc, field: &str, kind, message: String| Problem {
+        severity: Severity::Error,
+        kind,
+        file: rel.clone(),
+        location: loc,
+        field: field.to_string(),
+        message,
+    };
+    let text = std::fs::read(root.join(CAMPAIGN_FILE)).map_err(|e| {
+        problem(
+            Location::File,
+            "",
+            ProblemKind::Unreadable,
+            format!("cannot read: {e}"),
+        )
+    })?;
+    let text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&text);
+    let file: CampaignFile = serde_json::from_slice(text).map_err(|e| {
+        let msg = e.to_string();
+        let field = ["missing field `", "unknown field `"]
+            .iter()
+            .find_map(|p| {
+                msg.split_once(p)
+                    .and_then(|(_, r)| r.split_once('`'))
+                    .map(|(f, _)| f.to_string())
+            })
+            .unwrap_or_default();
+        problem(
+            Location::Line(e.line() as u64),
+            &field,
+            ProblemKind::BadSpec,
+            msg,
+        )
+    })?;
+    if let Some((field, msg)) = file.spec.problems().into_iter().next() {
+        return Err(problem(Location::File, &field, ProblemKind::BadSpec, msg));
+    }
+    if file.novelty.k == 0 || !(file.novelty.alpha > 0.0 && file.novelty.alpha < 1.0) {
+        let msg = format!(
+            "needs k >= 1 and 0 < alpha < 1, got k {}, alpha {}",
+            file.novelty.k, file.novelty.alpha
+        );
+        return Err(problem(
+            Location::File,
+            "novelty",
+            ProblemKind::BadSpec,
+            msg,
+        ));
+    }
+    Ok(file)
+}
+
+/// Loads one data file into the builder.
+pub fn read_data_file(
+    root: &Path,
+    f: &DataFile,
+    checker: &mut RowChecker<'_>,
+    b: &mut StepTableBuilder,
+    log: &mut ProblemLog,
+    progress: &Progress,
+) {
+    b.begin_source(f.rel.clone());
+    let before = b.len();
+    let data_dir = f.rel.parent().unwrap_or(Path::new("")).to_path_buf();
+    let path = root.join(&f.rel);
+    match f.format {
+        DataFormat::JsonLines | DataFormat::Csv => match File::open(&path) {
+            Ok(file) if f.format == DataFormat::JsonLines => {
+                read_jsonl(file, &data_dir, checker, b, log, progress)
+            }
+            Ok(file) => super::csv::read_csv(file, &data_dir, checker, b, log, progress),
+            Err(e) => log.error(
+                ProblemKind::Unreadable,
+                Location::File,
+                "",
+                format!("cannot open: {e}"),
+            ),
+        },
+        DataFormat::Npz => match NpzSource::open(&path) {
+            Ok(mut src) => read_numpy(&mut src, &data_dir, checker, b, log, progress),
+            Err(msg) => log.error(ProblemKind::MalformedNumpy, Location::File, "", msg),
+        },
+        DataFormat::NpySet => {
+            let name = f
+                .rel
+                .file_name()
+                .map(|n| n.to_string_lossy().into_owned())
+                .unwrap_or_default();
+            let stem = name.trim_end_matches(".states.npy").to_string();
+            let mut src = NpySetSource {
+                dir: root.join(&data_dir),
+                stem,
+            };
+            read_numpy(&mut src, &data_dir, checker, b, log, progress);
+        }
+    }
+    if b.len() == before && log.error_count() == 0 {
+        log.error(
+            ProblemKind::Empty,
+            Location::File,
+            "",
+            "the file holds no steps",
+        );
+    }
+}
+
+fn load_table(
+    root: &Path,
+    rel_dir: &Path,
+    file: &CampaignFile,
+    opts: &LoadOptions,
+    progress: &Progress,
+    problems: &mut Vec<Problem>,
+    more: &mut usize,
+) -> Option<StepTable> {
+    let files = match data_files(root, rel_dir) {
+        Ok(f) => f,
+        Err(e) => {
+            problems.push(folder_problem(
+                rel_dir,
+                ProblemKind::Unreadable,
+                format!("cannot list the folder: {e}"),
+            ));
+            return None;
+        }
+    };
+    if files.is_empty() {
+        problems.push(folder_problem(
+            rel_dir,
+            ProblemKind::Empty,
+            "no .jsonl, .csv, .npz or .states.npy file".into(),
+        ));
+        return None;
+    }
+    let mut b = StepTableBuilder::new(file.spec.state_dim(), file.spec.action_dim());
+    let mut checker = RowChecker::new(&file.spec);
+    let mut ok = true;
+    for f in &files {
+        let mut log = ProblemLog::new(&f.rel, opts.problem_cap);
+        read_data_file(root, f, &mut checker, &mut b, &mut log, progress);
+        ok &= log.error_count() == 0 && (!opts.strict || log.warning_count() == 0);
+        let (kept, dropped) = log.finish();
+        problems.extend(kept);
+        *more += dropped;
+        if progress.is_cancelled() {
+            return None;
+        }
+    }
+    let table = b.finish();
+    check_frames(root, &table, opts, problems, more);
+    ok.then_some(table)
+}
+
+fn check_frames(
+    root: &Path,
+    table: &StepTable,
+    opts: &LoadOptions,
+    problems: &mut Vec<Problem>,
+    more: &mut usize,
+) {
+    let mut shown = 0;
+    for (row, rel) in &table.frames {
+        if root.join(rel).is_file() {
+            continue;
+        }
+        if shown >= opts.problem_cap {
+            *more += 1;
+            continue;
+        }
+        shown += 1;
+        let row = *row as usize;
+        let e = &table.episodes[table.episode_of(row)];
+        problems.push(Problem {
+            severity: if opts.strict {
+                Severity::Error
+            } else {
+                Severity::Warning
+            },
+            kind: ProblemKind::MissingFrame,
+            file: table.sources[e.source].clone(),
+            location: Location::Line(table.origins[row]),
+            field: "frame".into(),
+            message: format!("frame `{rel}` does not exist"),
+        });
+    }
+}
+
+fn folder_problem(rel: &Path, kind: ProblemKind, message: String) -> Problem {
+    Problem {
+        severity: Severity::Error,
+        kind,
+        file: rel.to_path_buf(),
+        location: Location::File,
+        field: String::new(),
+        message,
+    }
+}
+
+fn total_bytes(root: &Path) -> u64 {
+    fn walk(p: &Path) -> u64 {
+        let Ok(rd) = std::fs::read_dir(p) else {
+            return 0;
+        };
+        rd.flatten()
+            .map(|e| match e.file_type() {
+                Ok(t) if t.is_dir() && e.file_name() != "frames" => walk(&e.path()),
+                Ok(t) if t.is_file() => e.metadata().map(|m| m.len()).unwrap_or(0),
+                _ => 0,
+            })
+            .sum()
+    }
+    walk(&root.join(DEMONSTRATIONS_DIR)) + walk(&root.join(ROUNDS_DIR))
+}
+
+/// Loads and checks a whole campaign, collecting every problem (up to the cap per file).
+pub fn check_campaign(root: &Path, opts: &LoadOptions, progress: &Progress) -> CheckReport {
+    let mut problems = Vec::new();
+    let mut more = 0;
+    let file = match read_campaign_file(root) {
+        Ok(f) => f,
+        Err(p) => {
+            return CheckReport {
+                campaign: None,
+                problems: vec![p],
+                more: 0,
+            };
+        }
+    };
+    progress.stage("loading", total_bytes(root));
+    let demos = load_table(
+        root,
+        Path::new(DEMONSTRATIONS_DIR),
+        &file,
+        opts,
+        progress,
+        &mut problems,
+        &mut more,
+    );
+    let mut rounds = Vec::new();
+    let mut rounds_ok = true;
+    match round_numbers(root) {
+        Ok(ns) => {
+            for n in ns {
+                let rel = Path::new(ROUNDS_DIR).join(n.to_string());
+                match load_table(root, &rel, &file, opts, progress, &mut problems, &mut more) {
+                    Some(steps) => rounds.push(Round { number: n, steps }),
+                    None => rounds_ok = false,
+                }
+            }
+        }
+        Err(e) => {
+            problems.push(folder_problem(
+                Path::new(ROUNDS_DIR),
+                ProblemKind::Unreadable,
+                e.to_string(),
+            ));
+            rounds_ok = false;
+        }
+    }
+    let campaign = match (demos, rounds_ok) {
+        (Some(demonstrations), true) => Some(Campaign {
+            root: root.to_path_buf(),
+            file,
+            demonstrations,
+            rounds,
+        }),
+        _ => None,
+    };
+    CheckReport {
+        campaign,
+        problems,
+        more,
+    }
+}
+
+/// Loads a campaign; any error (or, with `strict`, any warning) fails the load with all
+/// problems attached.
+pub fn load_campaign(
+    root: &Path,
+    opts: &LoadOptions,
+    progress: &Progress,
+) -> Result<Campaign, CampaignError> {
+    if !root.is_dir() {
+        return Err(CampaignError::Folder {
+            path: root.to_path_buf(),
+            message: "is not a folder".into(),
+        });
+    }
+    let report = check_campaign(root, opts, progress);
+    if progress.is_cancelled() {
+        return Err(CampaignError::Cancelled);
+    }
+    match report.campaign {
+        Some(c) => Ok(c),
+        None => Err(CampaignError::Invalid {
+            problems: report.problems,
+            more: report.more,
+        }),
+    }
+}

@@ -1,0 +1,426 @@
+//! NumPy step data: an `.npz` archive, or a set of `.npy` files sharing a stem
+//! (`part.states.npy`, `part.actions.npy`, `part.episode.npy`, `part.t.npy`, ...).
+//!
+//! Arrays: `states` (n, D) float, `actions` (n, A) float (discrete channels hold choice
+//! indices), `episode` (n,) integer or string, `t` (n,) integer; optional `intervention` (n,)
+//! bool or integer, `frame` (n,) string (empty for none), `samples` (n, S, A) float.
+//! Parsing is npyz's; before any array is read its declared size is checked against the bytes
+//! that hold it, so a header cannot make the loader allocate more than the file carries.
+
+use std::fs::File;
+use std::io::{BufReader, Read};
+use std::path::Path;
+
+use npyz::{NpyFile, Order, TypeChar};
+
+use super::accept::{RowMeta, accept};
+use super::error::{Location, ProblemKind, ProblemLog};
+use super::steps::StepTableBuilder;
+use super::validate::{RawValue, RowChecker, resolve_frame};
+use crate::progress::Progress;
+
+/// The array names a NumPy step set may hold.
+pub const ARRAY_NAMES: [&str; 7] = [
+    "states",
+    "actions",
+    "episode",
+    "t",
+    "intervention",
+    "frame",
+    "samples",
+];
+
+/// Values of one array, converted to a common type.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Values {
+    /// Floats, integers and bools as f64.
+    Numbers(Vec<f64>),
+    /// Integers kept exact.
+    Integers(Vec<i64>),
+    /// Strings.
+    Text(Vec<String>),
+}
+
+/// One array: its shape (C order) and values.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Array {
+    /// Shape, C order.
+    pub shape: Vec<u64>,
+    /// Values, C order.
+    pub values: Values,
+}
+
+/// Reads an array, refusing a declared size larger than `available` bytes.
+pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
+    let npy = NpyFile::new(r).map_err(|e| format!("not a NumPy array: {e}"))?;
+    let shape = npy.shape().to_vec();
+    let count = shape
+        .iter()
+        .try_fold(1u64, |a, &d| a.checked_mul(d))
+        .ok_or("shape overflows")?;
+    let npyz::DType::Plain(ts) = npy.dtype() else {
+        return Err("structured or nested dtypes are not supported".into());
+    };
+    let item = ts.num_bytes().unwrap_or(0) as u64;
+    if count.saturating_mul(item) > available {
+        return Err(format!(
+            "header declares {count} values of {item} bytes but only {available} bytes follow"
+        ));
+    }
+    let fortran = npy.order() == Order::Fortran;
+    let size = ts.size_field();
+    let e = |e: std::io::Error| format!("array data: {e}");
+    let values = match (ts.type_char(), size) {
+        (TypeChar::Float, 4) => Values::Numbers(
+            npy.into_vec::<f32>()
+                .map_err(e)?
+                .into_iter()
+                .map(f64::from)
+                .collect(),
+        ),
+        (TypeChar::Float, 8) => Values::Numbers(npy.into_vec::<f64>().map_err(e)?),
+        (TypeChar::Int, 8) => Values::Integers(npy.into_vec::<i64>().map_err(e)?),
+        (TypeChar::Int, 4) => Values::Integers(
+            npy.into_vec::<i32>()
+                .map_err(e)?
+                .into_iter()
+                .map(i64::from)
+                .collect(),
+        ),
+        (TypeChar::Int, 2) => Values::Integers(
+            npy.into_vec::<i16>()
+                .map_err(e)?
+                .into_iter()
+                .map(i64::from)
+                .collect(),
+        ),
+        (TypeChar::Int, 1) => Values::Integers(
+            npy.into_vec::<i8>()
+                .map_err(e)?
+                .into_iter()
+                .map(i64::from)
+                .collect(),
+        ),
+        (TypeChar::Uint, 4) => Values::Integers(
+            npy.into_vec::<u32>()
+                .map_err(e)?
+                .into_iter()
+                .map(i64::from)
+                .collect(),
+        ),
+        (TypeChar::Uint, 2) => Values::Integers(
+            npy.into_vec::<u16>()
+                .map_err(e)?
+                .into_iter()
+                .map(i64::from)
+                .collect(),
+        ),
+        (TypeChar::Uint, 1) => Values::Integers(
+            npy.into_vec::<u8>()
+                .map_err(e)?
+                .into_iter()
+                .map(i64::from)
+                .collect(),
+        ),
+        (TypeChar::Bool, _) => Values::Integers(
+            npy.into_vec::<bool>()
+                .map_err(e)?
+                .into_iter()
+                .map(i64::from)
+                .collect(),
+        ),
+        (TypeChar::UnicodeStr | TypeChar::ByteStr, _) => {
+            Values::Text(npy.into_vec::<String>().map_err(e)?)
+        }
+        (c, s) => return Err(format!("dtype {c:?} of {s} bytes is not supported")),
+    };
+    let got = match &values {
+        Values::Numbers(v) => v.len(),
+        Values::Integers(v) => v.len(),
+        Values::Text(v) => v.len(),
+    } as u64;
+    if got != count {
+        return Err(format!("expected {count} values, the data holds {got}"));
+    }
+    let values = if fortran && shape.len() > 1 {
+        to_c_order(values, &shape)
+    } else {
+        values
+    };
+    Ok(Array { shape, values })
+}
+
+fn to_c_order(v: Values, shape: &[u64]) -> Values {
+    let dims: Vec<usize> = shape.iter().map(|&d| d as usize).collect();
+    let n: usize = dims.iter().product();
+    let idx: Vec<usize> = (0..n)
+        .map(|c| {
+            // c is a C-order index; find its Fortran-order position.
+            let (mut rem, mut f, mut stride) = (c, 0, 1);
+            let mut coords = vec![0; dims.len()];
+            for (k, &d) in dims.iter().enumerate().rev() {
+                coords[k] = rem % d.max(1);
+                rem /= d.max(1);
+            }
+            for (k, &d) in dims.iter().enumerate() {
+                f += coords[k] * stride;
+                stride *= d;
+            }
+            f
+        })
+        .collect();
+    match v {
+        Values::Numbers(x) => Values::Numbers(idx.iter().map(|&i| x[i]).collect()),
+        Values::Integers(x) => Values::Integers(idx.iter().map(|&i| x[i]).collect()),
+        Values::Text(x) => Values::Text(idx.iter().map(|&i| x[i].clone()).collect()),
+    }
+}
+
+/// A source of named arrays: an open .npz, or sibling .npy files.
+pub trait ArraySource {
+    /// Reads the named array, `Ok(None)` when absent.
+    fn array(&mut self, name: &str) -> Result<Option<Array>, String>;
+}
+
+/// Arrays of an `.npz` archive.
+pub struct NpzSource(npyz::npz::NpzArchive<BufReader<File>>);
+
+impl NpzSource {
+    /// Opens an archive.
+    pub fn open(path: &Path) -> Result<Self, String> {
+        npyz::npz::NpzArchive::open(path)
+            .map(NpzSource)
+            .map_err(|e| format!("not a readable .npz archive: {e}"))
+    }
+
+    /// Names of the arrays in the archive.
+    pub fn names(&self) -> Vec<String> {
+        self.0.array_names().map(str::to_string).collect()
+    }
+}
+
+impl ArraySource for NpzSource {
+    fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
+        let member = npyz::npz::file_name_from_array_name(name);
+        let size = match self.0.zip_archive().by_name(&member) {
+            Ok(f) => f.size(),
+            Err(_) => return Ok(None),
+        };
+        match self.0.by_name(name) {
+            Ok(Some(f)) => read_array(f.into_inner(), size).map(Some),
+            Ok(None) => Ok(None),
+            Err(e) => Err(format!("member `{member}`: {e}")),
+        }
+    }
+}
+
+/// Arrays of `<stem>.<name>.npy` files in one folder.
+pub struct NpySetSource {
+    /// Folder of the files.
+    pub dir: std::path::PathBuf,
+    /// Shared stem.
+    pub stem: String,
+}
+
+impl ArraySource for NpySetSource {
+    fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
+        let path = self.dir.join(format!("{}.{name}.npy", self.stem));
+        let f = match File::open(&path) {
+            Ok(f) => f,
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(None),
+            Err(e) => return Err(format!("{}: {e}", path.display())),
+        };
+        let size = f.metadata().map(|m| m.len()).unwrap_or(0);
+        read_array(BufReader::new(f), size)
+            .map(Some)
+            .map_err(|e| format!("{name}.npy: {e}"))
+    }
+}
+
+fn numbers(a: &Array) -> Vec<f64> {
+    match &a.values {
+        Values::Numbers(v) => v.clone(),
+        Values::Integers(v) => v.iter().map(|&x| x as f64).collect(),
+        Values::Text(_) => Vec::new(),
+    }
+}
+
+/// Reads one NumPy step set into the builder, reporting every fault to `log`.
+pub fn read_numpy(
+    src: &mut dyn ArraySource,
+    data_dir: &Path,
+    checker: &mut RowChecker<'_>,
+    b: &mut StepTableBuilder,
+    log: &mut ProblemLog,
+    progress: &Progress,
+) {
+    let (d, a) = (checker.spec().state_dim(), checker.spec().action_dim());
+    let mut get = |name: &str, required: bool, log: &mut ProblemLog| match src.array(name) {
+        Ok(Some(arr)) => Some(arr),
+        Ok(None) => {
+            if required {
+                log.error(
+                    ProblemKind::MissingColumn,
+                    Location::File,
+                    name,
+                    format!("array `{name}` is missing"),
+                );
+            }
+            None
+        }
+        Err(msg) => {
+            log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
+            None
+        }
+    };
+    let states = get("states", true, log);
+    let actions = get("actions", true, log);
+    let episode = get("episode", true, log);
+    let t = get("t", true, log);
+    let intervention = get("intervention", false, log);
+    let frame = get("frame", false, log);
+    let samples = get("samples", false, log);
+    let (Some(states), Some(actions), Some(episode), Some(t)) = (states, actions, episode, t)
+    else {
+        return;
+    };
+    let n = states.shape.first().copied().unwrap_or(0);
+    let mut shape_ok = true;
+    let mut want = |name: &str, arr: &Array, shape: &[Option<u64>]| {
+        let fits = arr.shape.len() == shape.len()
+            && arr
+                .shape
+                .iter()
+                .zip(shape)
+                .all(|(&g, w)| w.is_none_or(|w| w == g));
+        if !fits {
+            let w: Vec<String> = shape
+                .iter()
+                .map(|x| x.map_or("S".into(), |v| v.to_string()))
+                .collect();
+            let msg = format!(
+                "shape {:?} does not match the expected ({})",
+                arr.shape,
+                w.join(", ")
+            );
+            log.error(ProblemKind::WrongDimension, Location::File, name, msg);
+            shape_ok = false;
+        }
+    };
+    want("states", &states, &[Some(n), Some(d as u64)]);
+    want("actions", &actions, &[Some(n), Some(a as u64)]);
+    want("episode", &episode, &[Some(n)]);
+    want("t", &t, &[Some(n)]);
+    if let Some(x) = &intervention {
+        want("intervention", x, &[Some(n)]);
+    }
+    if let Some(x) = &frame {
+        want("frame", x, &[Some(n)]);
+    }
+    if let Some(x) = &samples {
+        want("samples", x, &[Some(n), None, Some(a as u64)]);
+    }
+    if !shape_ok {
+        return;
+    }
+    if n == 0 {
+        log.error(
+            ProblemKind::Empty,
+            Location::File,
+            "",
+            "the arrays hold no steps",
+        );
+        return;
+    }
+    let sv = numbers(&states);
+    let av = numbers(&actions);
+    let ts: Vec<i64> = match &t.values {
+        Values::Integers(v) => v.clone(),
+        _ => {
+            log.error(
+                ProblemKind::MalformedNumpy,
+                Location::File,
+                "t",
+                "`t` must be an integer array",
+            );
+            return;
+        }
+    };
+    let names: Vec<String> = match episode.values {
+        Values::Integers(v) => v.iter().map(i64::to_string).collect(),
+        Values::Text(v) => v,
+        Values::Numbers(_) => {
+            log.error(
+                ProblemKind::MalformedNumpy,
+                Location::File,
+                "episode",
+                "`episode` must be integers or strings",
+            );
+            return;
+        }
+    };
+    let flags = intervention.map(|x| numbers(&x));
+    let frames = frame.and_then(|x| match x.values {
+        Values::Text(v) => Some(v),
+        _ => None,
+    });
+    let s_count = samples
+        .as_ref()
+        .and_then(|x| x.shape.get(1).copied())
+        .unwrap_or(0) as usize;
+    let samples = samples.map(|x| numbers(&x));
+    let n = n as usize;
+    let mut raw: Vec<RawValue> = Vec::with_capacity(a);
+    for i in 0..n {
+        if i % 4096 == 0 {
+            progress.advance(4096);
+            if progress.is_cancelled() {
+                return;
+            }
+        }
+        let at = Location::Record(i as u64);
+        let mut ok = checker.state(sv[i * d..(i + 1) * d].iter().copied(), log, at);
+        raw.clear();
+        raw.extend(av[i * a..(i + 1) * a].iter().map(|&x| RawValue::Number(x)));
+        ok &= checker.action(raw.iter(), log, at, "actions");
+        checker.samples.clear();
+        if let Some(s) = &samples {
+            for j in 0..s_count {
+                let base = (i * s_count + j) * a;
+                raw.clear();
+                raw.extend(s[base..base + a].iter().map(|&x| RawValue::Number(x)));
+                if raw
+                    .iter()
+                    .all(|r| matches!(r, RawValue::Number(x) if x.is_nan()))
+                {
+                    continue; // an all-NaN sample row pads a step with fewer samples
+                }
+                ok &= checker.sample(raw.iter(), log, at, &format!("samples[{j}]"));
+            }
+        }
+        let frame = match frames
+            .as_ref()
+            .map(|f| f[i].as_str())
+            .filter(|f| !f.is_empty())
+        {
+            None => None,
+            Some(f) => match resolve_frame(data_dir, f) {
+                Ok(p) => Some(p),
+                Err(msg) => {
+                    log.error(ProblemKind::BadFramePath, at, "frame", msg);
+                    continue;
+                }
+            },
+        };
+        if ok {
+            let intervention = flags.as_ref().map(|f| f[i] != 0.0);
+            let meta = RowMeta {
+                episode: names[i].clone(),
+                t: ts[i],
+                frame,
+                intervention,
+            };
+            accept(b, log, at, meta, checker);
+        }
+    }
+}

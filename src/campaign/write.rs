@@ -1,0 +1,176 @@
+//! Writers for step tables in the campaign's own formats (used by the demo generator and
+//! by anyone converting data). Floats are written in their shortest exact form, so reading
+//! a written file back gives the same f32 bits.
+
+use std::io::{self, Write};
+
+use serde_json::{Map, Value, json};
+
+use super::spec::{ChannelKind, Spec};
+use super::steps::StepTable;
+
+fn action_json(spec: &Spec, a: &[f32]) -> Value {
+    Value::Array(
+        spec.actions
+            .iter()
+            .zip(a)
+            .map(|(c, &v)| match &c.kind {
+                ChannelKind::Discrete { choices } => {
+                    json!(choices.get(v as usize).cloned().unwrap_or_default())
+                }
+                ChannelKind::Continuous { .. } => json!(v),
+            })
+            .collect(),
+    )
+}
+
+/// Relative path of a frame as written from a data file in `data_dir` (relative to the
+/// campaign folder): the stored path with `data_dir`'s prefix removed when it has it.
+fn frame_from(data_dir: &str, stored: &str) -> String {
+    let prefix = format!("{}/", data_dir.trim_end_matches('/'));
+    match stored.strip_prefix(&prefix) {
+        Some(rest) if !data_dir.is_empty() => rest.to_string(),
+        _ => {
+            let ups = data_dir.split('/').filter(|s| !s.is_empty()).count();
+            format!("{}{stored}", "../".repeat(ups))
+        }
+    }
+}
+
+/// Writes a table as JSON Lines; frame paths are made relative to `data_dir` (the folder,
+/// relative to the campaign, the file will live in).
+pub fn write_jsonl<W: Write>(
+    t: &StepTable,
+    spec: &Spec,
+    data_dir: &str,
+    mut w: W,
+) -> io::Result<()> {
+    for e in &t.episodes {
+        for row in e.rows() {
+            let mut m = Map::new();
+            m.insert("episode".into(), json!(e.name));
+            m.insert("t".into(), json!(t.t[row]));
+            m.insert("state".into(), json!(t.state(row)));
+            m.insert("action".into(), action_json(spec, t.action(row)));
+            if let Some(f) = t.frame(row) {
+                m.insert("frame".into(), json!(frame_from(data_dir, f)));
+            }
+            if !t.interventions.is_empty() {
+                m.insert("intervention".into(), json!(t.intervention(row)));
+            }
+            if let Some(s) = t.samples(row) {
+                m.insert(
+                    "samples".into(),
+                    Value::Array(s.map(|a| action_json(spec, a)).collect()),
+                );
+            }
+            serde_json::to_writer(&mut w, &Value::Object(m))?;
+            w.write_all(b"\n")?;
+        }
+    }
+    w.flush()
+}
+
+/// Writes a table as CSV (no ensemble samples: CSV does not carry them).
+pub fn write_csv<W: Write>(t: &StepTable, spec: &Spec, data_dir: &str, w: W) -> io::Result<()> {
+    let mut out = csv::Writer::from_writer(w);
+    let mut header: Vec<String> = vec!["episode".into(), "t".into()];
+    header.extend(spec.features.iter().map(|f| f.name.clone()));
+    header.extend(spec.actions.iter().map(|c| c.name.clone()));
+    let frames = !t.frames.is_empty();
+    let flags = !t.interventions.is_empty();
+    if frames {
+        header.push("frame".into());
+    }
+    if flags {
+        header.push("intervention".into());
+    }
+    out.write_record(&header)?;
+    for e in &t.episodes {
+        for row in e.rows() {
+            let mut rec: Vec<String> = vec![e.name.clone(), t.t[row].to_string()];
+            rec.extend(t.state(row).iter().map(|v| v.to_string()));
+            rec.extend(
+                spec.actions
+                    .iter()
+                    .zip(t.action(row))
+                    .map(|(c, &v)| c.format_value(v)),
+            );
+            if frames {
+                rec.push(
+                    t.frame(row)
+                        .map(|f| frame_from(data_dir, f))
+                        .unwrap_or_default(),
+                );
+            }
+            if flags {
+                rec.push(t.intervention(row).to_string());
+            }
+            out.write_record(&rec)?;
+        }
+    }
+    out.flush()
+}
+
+/// Writes a table as `.npz` (states/actions float32, episode as strings, t int64,
+/// intervention bool when present). Frames and samples are left out.
+pub fn write_npz<W: Write + io::Seek>(t: &StepTable, w: W) -> io::Result<()> {
+    use npyz::WriterBuilder;
+    let mut npz = npyz::npz::NpzWriter::new(w);
+    let opts = || {
+        npyz::zip::write::FileOptions::default()
+            .compression_method(npyz::zip::CompressionMethod::Stored)
+            .last_modified_time(npyz::zip::DateTime::default())
+    };
+    let n = t.len() as u64;
+    let mut arr = npz
+        .array::<f32>("states", opts())?
+        .default_dtype()
+        .shape(&[n, t.state_dim as u64])
+        .begin_nd()?;
+    arr.extend(t.states.iter().copied())?;
+    arr.finish()?;
+    let mut arr = npz
+        .array::<f32>("actions", opts())?
+        .default_dtype()
+        .shape(&[n, t.action_dim as u64])
+        .begin_nd()?;
+    arr.extend(t.actions.iter().copied())?;
+    arr.finish()?;
+    let names: Vec<String> = t
+        .episodes
+        .iter()
+        .flat_map(|e| std::iter::repeat_n(e.name.clone(), e.len))
+        .collect();
+    let width = names
+        .iter()
+        .map(|s| s.chars().count())
+        .max()
+        .unwrap_or(1)
+        .max(1);
+    let dtype = npyz::DType::Plain(format!("<U{width}").parse().map_err(io::Error::other)?);
+    let mut arr = npz
+        .array::<String>("episode", opts())?
+        .dtype(dtype)
+        .shape(&[n])
+        .begin_nd()?;
+    arr.extend(names.iter().cloned())?;
+    arr.finish()?;
+    let mut arr = npz
+        .array::<i64>("t", opts())?
+        .default_dtype()
+        .shape(&[n])
+        .begin_nd()?;
+    arr.extend(t.t.iter().copied())?;
+    arr.finish()?;
+    if !t.interventions.is_empty() {
+        let mut arr = npz
+            .array::<bool>("intervention", opts())?
+            .default_dtype()
+            .shape(&[n])
+            .begin_nd()?;
+        arr.extend(t.interventions.iter().copied())?;
+        arr.finish()?;
+    }
+    Ok(())
+}

@@ -1,0 +1,87 @@
+//! `countersteer check DIR`: validate a campaign and print a summary or every problem.
+
+use std::path::PathBuf;
+
+use clap::Args;
+
+use super::{CliError, progress_bar::Bar};
+use crate::campaign::summary::summarize_campaign;
+use crate::campaign::{LoadOptions, Severity, check_campaign};
+use crate::progress::Progress;
+
+/// Arguments of `check`.
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    /// Campaign folder (holds campaign.json).
+    pub dir: PathBuf,
+    /// Problems shown per file before the rest are only counted.
+    #[arg(long, default_value_t = 50)]
+    pub max_problems: usize,
+    /// Treat warnings (actions clipped to bounds, missing frame images) as errors.
+    #[arg(long)]
+    pub strict: bool,
+}
+
+/// Runs `check`.
+pub fn run(a: CheckArgs) -> Result<(), CliError> {
+    if !a.dir.is_dir() {
+        return Err(CliError::usage(format!(
+            "{}: not a folder",
+            a.dir.display()
+        )));
+    }
+    let opts = LoadOptions {
+        problem_cap: a.max_problems.max(1),
+        strict: a.strict,
+    };
+    let progress = Progress::new();
+    let report = {
+        let _bar = Bar::follow(&progress);
+        check_campaign(&a.dir, &opts, &progress)
+    };
+    for p in &report.problems {
+        eprintln!("{p}");
+    }
+    if report.more > 0 {
+        eprintln!(
+            "... and {} more problem(s) not shown (raise --max-problems)",
+            report.more
+        );
+    }
+    let warnings = report
+        .problems
+        .iter()
+        .filter(|p| p.severity == Severity::Warning)
+        .count();
+    let Some(c) = report.campaign else {
+        let n = report.error_count();
+        return Err(CliError::invalid(format!(
+            "{}: {n} error(s){}; the campaign cannot be used as it is",
+            a.dir.display(),
+            if report.more > 0 { " shown" } else { "" }
+        )));
+    };
+    println!("campaign `{}` in {}", c.file.name, a.dir.display());
+    println!(
+        "  spec: {} state features, {} action channels",
+        c.spec().state_dim(),
+        c.spec().action_dim()
+    );
+    for s in summarize_campaign(&c) {
+        println!(
+            "{}: {} episodes, {} steps, {} interventions, {} frames, {} with ensemble samples",
+            s.label, s.episodes, s.steps, s.interventions, s.frames, s.with_samples
+        );
+        for f in &s.features {
+            println!(
+                "    {:<24} {:>12.4} .. {:<12.4} mean {:>10.4} {}",
+                f.name, f.min, f.max, f.mean, f.unit
+            );
+        }
+    }
+    if warnings > 0 {
+        println!("{warnings} warning(s) above; the data was used as described in each");
+    }
+    println!("ok");
+    Ok(())
+}

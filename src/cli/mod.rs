@@ -1,0 +1,98 @@
+//! The command line: argument parsing and one module per subcommand. Each subcommand is a
+//! thin caller of library functions; errors are printed and mapped to exit codes here.
+
+mod check;
+mod progress_bar;
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+/// Exit code for invalid input data.
+pub const EXIT_INVALID: u8 = 1;
+/// Exit code for a usage or environment problem (no display, unreadable folder).
+pub const EXIT_USAGE: u8 = 2;
+
+/// countersteer: choose the learner states worth an expert's time, collect corrections,
+/// export the merged training set.
+#[derive(Debug, Parser)]
+#[command(name = "countersteer", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do; without a subcommand the desktop workbench opens.
+    #[command(subcommand)]
+    pub command: Option<Command>,
+}
+
+/// The subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Validate a campaign folder and print a summary, or every problem found.
+    Check(check::CheckArgs),
+}
+
+/// Parses the arguments and runs the program.
+pub fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        None => Err(CliError::usage(
+            "the desktop workbench is not built yet; use a subcommand (see --help)",
+        )),
+        Some(Command::Check(a)) => check::run(a),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("countersteer: {}", e.message);
+            ExitCode::from(e.code)
+        }
+    }
+}
+
+/// A failed command: the message to print and the exit code.
+#[derive(Debug)]
+pub struct CliError {
+    /// What went wrong, in words.
+    pub message: String,
+    /// The process exit code.
+    pub code: u8,
+}
+
+impl CliError {
+    /// A usage or environment problem.
+    pub fn usage(message: impl Into<String>) -> Self {
+        CliError {
+            message: message.into(),
+            code: EXIT_USAGE,
+        }
+    }
+
+    /// Invalid input data.
+    pub fn invalid(message: impl Into<String>) -> Self {
+        CliError {
+            message: message.into(),
+            code: EXIT_INVALID,
+        }
+    }
+}
+
+/// The default campaign folder argument help.
+pub fn campaign_dir_help() -> &'static str {
+    "campaign folder (holds campaign.json)"
+}
+
+/// Resolves a campaign folder argument to a path that exists.
+pub fn campaign_dir(dir: &PathBuf) -> Result<PathBuf, CliError> {
+    if dir.join(countersteer_campaign_file()).is_file() {
+        Ok(dir.clone())
+    } else {
+        Err(CliError::usage(format!(
+            "{}: no campaign.json here; is this a campaign folder?",
+            dir.display()
+        )))
+    }
+}
+
+fn countersteer_campaign_file() -> &'static str {
+    crate::campaign::folder::CAMPAIGN_FILE
+}
