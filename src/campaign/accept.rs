@@ -27,13 +27,18 @@ pub fn accept(
 ) {
     if let Some(fault) = b.order_fault(&meta.episode, meta.t) {
         let (kind, msg) = match fault {
-            OrderFault::Duplicate { previous_origin } => (
-                ProblemKind::DuplicateStep,
-                format!(
-                    "episode `{}` has t = {} twice (also at {previous_origin})",
+            OrderFault::Duplicate { previous_origin } => {
+                let unit = if matches!(at, Location::Record(_)) {
+                    "record"
+                } else {
+                    "line"
+                };
+                let msg = format!(
+                    "episode `{}` has t = {} twice (first at {unit} {previous_origin})",
                     meta.episode, meta.t
-                ),
-            ),
+                );
+                (ProblemKind::DuplicateStep, msg)
+            }
             OrderFault::Backwards { previous_t } => (
                 ProblemKind::TimeOrder,
                 format!(

@@ -105,8 +105,8 @@ pub fn read_csv<R: Read>(
             return;
         }
     };
-    let spec = checker_spec(checker);
-    let Some(cols) = columns(&header, &spec, log) else {
+    let spec = checker.spec();
+    let Some(cols) = columns(&header, spec, log) else {
         return;
     };
     let mut record = csv::StringRecord::new();
@@ -211,10 +211,6 @@ pub fn read_csv<R: Read>(
             accept(b, log, at, meta, checker);
         }
     }
-}
-
-fn checker_spec(c: &RowChecker<'_>) -> Spec {
-    c.spec().clone()
 }
 
 fn parse_flag(s: &str) -> Result<Option<bool>, String> {

@@ -171,6 +171,11 @@ fn json_fault(e: &serde_json::Error, text: &[u8]) -> (String, String) {
         })
         .or_else(|| field_at_column(text, e.column()))
         .unwrap_or_default();
+    // serde counts lines within the one-line text; the caller reports the file's line.
+    let msg = match msg.rsplit_once(" at line ") {
+        Some((head, _)) => format!("{head} (column {})", e.column()),
+        None => msg,
+    };
     let msg = if std::str::from_utf8(text).is_err() {
         format!("not UTF-8 text ({msg})")
     } else {

@@ -202,13 +202,14 @@ impl NpzSource {
 impl ArraySource for NpzSource {
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
         let member = npyz::npz::file_name_from_array_name(name);
-        let size = match self.0.zip_archive().by_name(&member) {
-            Ok(f) => f.size(),
-            Err(_) => return Ok(None),
-        };
-        match self.0.by_name(name) {
-            Ok(Some(f)) => read_array(f.into_inner(), size).map(Some),
-            Ok(None) => Ok(None),
+        match self.0.zip_archive().by_name(&member) {
+            Ok(f) => {
+                let size = f.size();
+                read_array(f, size)
+                    .map(Some)
+                    .map_err(|e| format!("member `{member}`: {e}"))
+            }
+            Err(npyz::zip::result::ZipError::FileNotFound) => Ok(None),
             Err(e) => Err(format!("member `{member}`: {e}")),
         }
     }

@@ -198,7 +198,7 @@ pub fn raw_from_text(s: &str) -> RawValue {
 
 fn not_finite(v: f64) -> String {
     if v.is_finite() {
-        format!("{v} overflows a 32-bit float")
+        format!("{v:e} overflows a 32-bit float")
     } else {
         format!("{v} is not a finite number")
     }
@@ -292,9 +292,9 @@ mod tests {
     }
 }
 
-impl RowChecker<'_> {
+impl<'s> RowChecker<'s> {
     /// The spec rows are checked against.
-    pub fn spec(&self) -> &Spec {
+    pub fn spec(&self) -> &'s Spec {
         self.spec
     }
 }
