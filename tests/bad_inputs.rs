@@ -3,6 +3,8 @@
 //! `check` must report exactly the expected problems with file, line and field, and the
 //! `countersteer check` command must exit non-zero on errors and print the location.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::process::Command;

@@ -1,6 +1,8 @@
 //! Loader round trips (JSON Lines, CSV, .npz written by us) and the NumPy fixture written by
 //! numpy itself (tests/fixtures/make_numpy_campaign.py, numpy 1.26.4).
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 mod common;
 
 use std::fs::File;

@@ -85,7 +85,7 @@ pub fn read_csv<R: Read>(
         .flexible(true)
         .from_reader(input);
     let header = match rdr.headers() {
-        Ok(h) if !h.is_empty() && !(h.len() == 1 && h[0].trim().is_empty()) => h.clone(),
+        Ok(h) if !(h.is_empty() || h.len() == 1 && h[0].trim().is_empty()) => h.clone(),
         Ok(_) => {
             log.error(
                 ProblemKind::Empty,

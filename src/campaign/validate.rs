@@ -85,8 +85,7 @@ impl<'s> RowChecker<'s> {
         I: ExactSizeIterator<Item = &'v RawValue>,
     {
         self.action.clear();
-        let ok = convert_action(self.spec, values, log, at, field, &mut self.action);
-        ok
+        convert_action(self.spec, values, log, at, field, &mut self.action)
     }
 
     /// Appends one ensemble sample to `self.samples` (call `self.samples.clear()` per row).
@@ -241,6 +240,13 @@ pub fn resolve_frame(data_dir: &Path, frame: &str) -> Result<String, String> {
     Ok(parts.join("/"))
 }
 
+impl<'s> RowChecker<'s> {
+    /// The spec rows are checked against.
+    pub fn spec(&self) -> &'s Spec {
+        self.spec
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -289,12 +295,5 @@ mod tests {
             action_value(&k, &RawValue::Number(1e300)).map(|x| x.0),
             Ok(1.0)
         );
-    }
-}
-
-impl<'s> RowChecker<'s> {
-    /// The spec rows are checked against.
-    pub fn spec(&self) -> &'s Spec {
-        self.spec
     }
 }

@@ -4,7 +4,7 @@
 mod check;
 mod progress_bar;
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
@@ -82,9 +82,9 @@ pub fn campaign_dir_help() -> &'static str {
 }
 
 /// Resolves a campaign folder argument to a path that exists.
-pub fn campaign_dir(dir: &PathBuf) -> Result<PathBuf, CliError> {
+pub fn campaign_dir(dir: &Path) -> Result<PathBuf, CliError> {
     if dir.join(countersteer_campaign_file()).is_file() {
-        Ok(dir.clone())
+        Ok(dir.to_path_buf())
     } else {
         Err(CliError::usage(format!(
             "{}: no campaign.json here; is this a campaign folder?",

@@ -1,5 +1,5 @@
 //! Fixture builders shared by the integration tests.
-#![allow(dead_code)]
+#![allow(dead_code, clippy::unwrap_used)]
 
 use std::path::Path;
 
