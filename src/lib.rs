@@ -6,6 +6,9 @@
 
 pub mod campaign;
 pub mod cli;
+pub mod consensus;
+pub mod export;
+pub mod ledger;
 pub mod progress;
 
 /// The tool's version, written into ledgers and manifests.

@@ -1,0 +1,1 @@
+//! Consensus across annotators (in progress).

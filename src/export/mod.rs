@@ -1,0 +1,1 @@
+//! Merged-set export (in progress).

@@ -1,0 +1,80 @@
+//! The ledger's error type and located problems found while reading a ledger.
+
+use std::fmt;
+use std::path::PathBuf;
+
+/// Why a ledger operation failed.
+#[derive(Debug, thiserror::Error)]
+pub enum LedgerError {
+    /// Reading or writing a file failed.
+    #[error("{}: {source}", path.display())]
+    Io {
+        /// The file.
+        path: PathBuf,
+        /// The operating system's error.
+        source: std::io::Error,
+    },
+    /// Another process (or another handle in this one) holds the ledger.
+    #[error("{} is open for writing elsewhere ({holder}); close it there first", path.display())]
+    Locked {
+        /// The ledger file.
+        path: PathBuf,
+        /// Who holds the lock: pid, host and start time as written in the lock file.
+        holder: String,
+    },
+    /// The annotator name cannot be used as a file name.
+    #[error("annotator name `{name}` {reason}")]
+    BadAnnotator {
+        /// The name given.
+        name: String,
+        /// What is wrong with it.
+        reason: String,
+    },
+    /// A retraction named a sequence number that is no correction of this ledger.
+    #[error("{}: record #{seq} is not a correction in this ledger", path.display())]
+    NoSuchCorrection {
+        /// The ledger file.
+        path: PathBuf,
+        /// The sequence number asked for.
+        seq: u64,
+    },
+    /// A retraction named a correction that is already retracted.
+    #[error("{}: record #{seq} is already retracted", path.display())]
+    AlreadyRetracted {
+        /// The ledger file.
+        path: PathBuf,
+        /// The sequence number asked for.
+        seq: u64,
+    },
+}
+
+impl LedgerError {
+    pub(crate) fn io(path: impl Into<PathBuf>) -> impl FnOnce(std::io::Error) -> LedgerError {
+        let path = path.into();
+        move |source| LedgerError::Io { path, source }
+    }
+}
+
+/// A fault found in a ledger file, located by line (1-based) and field. Faulty lines are
+/// reported and left out; they are never changed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LedgerProblem {
+    /// The ledger file.
+    pub file: PathBuf,
+    /// 1-based line.
+    pub line: u64,
+    /// The field concerned, empty for the whole line.
+    pub field: String,
+    /// What is wrong.
+    pub message: String,
+}
+
+impl fmt::Display for LedgerProblem {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}:{}", self.file.display(), self.line)?;
+        if !self.field.is_empty() {
+            write!(f, ": field `{}`", self.field)?;
+        }
+        write!(f, ": {}", self.message)
+    }
+}

@@ -1,0 +1,247 @@
+//! The writer's side of a ledger: open with a lock, set a torn tail aside, append with fsync.
+
+use std::collections::HashSet;
+use std::fs::{File, OpenOptions};
+use std::io::{Read, Write};
+use std::path::{Path, PathBuf};
+
+use super::check_annotator;
+use super::error::{LedgerError, LedgerProblem};
+use super::lock::acquire;
+use super::read::{ledger_path, parse};
+use super::record::{Correction, Entry, Record, Retraction};
+use super::time::utc_timestamp;
+
+/// Bytes of a torn last line that [`Ledger::open`] moved to a side file.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SetAside {
+    /// The side file holding the bytes.
+    pub path: PathBuf,
+    /// 1-based line of the ledger the bytes were on.
+    pub line: u64,
+    /// How many bytes were set aside.
+    pub bytes: u64,
+}
+
+/// What [`Ledger::open`] found.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OpenReport {
+    /// Whole, well-formed records in the ledger.
+    pub records: usize,
+    /// A torn last line, set aside.
+    pub set_aside: Option<SetAside>,
+    /// Lines left out (malformed, out of sequence); they stay in the file untouched.
+    pub problems: Vec<LedgerProblem>,
+    /// True when the ledger file did not exist and was created.
+    pub created: bool,
+}
+
+/// One annotator's ledger, open for appending. Holds the ledger's lock until dropped.
+#[derive(Debug)]
+pub struct Ledger {
+    path: PathBuf,
+    annotator: String,
+    file: File,
+    _lock: File,
+    len: u64,
+    records: Vec<Record>,
+    retracted: HashSet<u64>,
+    next_seq: u64,
+}
+
+impl Ledger {
+    /// Opens (creating when needed) the ledger of `annotator` in a campaign folder, taking
+    /// its lock and setting aside a torn last line.
+    pub fn open(
+        campaign_root: &Path,
+        annotator: &str,
+    ) -> Result<(Ledger, OpenReport), LedgerError> {
+        check_annotator(annotator)?;
+        let path = ledger_path(campaign_root, annotator);
+        let dir = path.parent().unwrap_or(campaign_root).to_path_buf();
+        std::fs::create_dir_all(&dir).map_err(LedgerError::io(&dir))?;
+        let lock = acquire(&dir.join(format!("{annotator}.lock")), &path)?;
+        let created = !path.exists();
+        let mut file = OpenOptions::new()
+            .read(true)
+            .append(true)
+            .create(true)
+            .open(&path)
+            .map_err(LedgerError::io(&path))?;
+        if created {
+            sync_dir(&dir)?;
+        }
+        let mut bytes = Vec::new();
+        file.read_to_end(&mut bytes)
+            .map_err(LedgerError::io(&path))?;
+        let parsed = parse(&path, &bytes, annotator);
+        let set_aside = if parsed.whole_len < bytes.len() {
+            let tail = &bytes[parsed.whole_len..];
+            Some(set_aside(
+                &path,
+                &file,
+                tail,
+                parsed.whole_len,
+                parsed.tail_line,
+            )?)
+        } else {
+            None
+        };
+        let retracted = parsed
+            .records
+            .iter()
+            .filter_map(|r| match r.entry {
+                Entry::Retraction(x) => Some(x.retracts),
+                Entry::Correction(_) => None,
+            })
+            .collect();
+        let next_seq = parsed.records.last().map_or(1, |r| r.seq + 1);
+        let report = OpenReport {
+            records: parsed.records.len(),
+            set_aside,
+            problems: parsed.problems,
+            created,
+        };
+        let ledger = Ledger {
+            path,
+            annotator: annotator.to_string(),
+            file,
+            _lock: lock,
+            len: parsed.whole_len as u64,
+            records: parsed.records,
+            retracted,
+            next_seq,
+        };
+        Ok((ledger, report))
+    }
+
+    /// Appends a correction; returns the record once it is written whole and fsync'd.
+    pub fn append(&mut self, correction: Correction) -> Result<Record, LedgerError> {
+        self.write(Entry::Correction(correction))
+    }
+
+    /// Retracts an earlier, not yet retracted correction of this ledger (undo).
+    pub fn retract(&mut self, seq: u64) -> Result<Record, LedgerError> {
+        let is_correction = self
+            .records
+            .iter()
+            .any(|r| r.seq == seq && r.correction().is_some());
+        if !is_correction {
+            return Err(LedgerError::NoSuchCorrection {
+                path: self.path.clone(),
+                seq,
+            });
+        }
+        if self.retracted.contains(&seq) {
+            return Err(LedgerError::AlreadyRetracted {
+                path: self.path.clone(),
+                seq,
+            });
+        }
+        let r = self.write(Entry::Retraction(Retraction { retracts: seq }))?;
+        self.retracted.insert(seq);
+        Ok(r)
+    }
+
+    fn write(&mut self, entry: Entry) -> Result<Record, LedgerError> {
+        let record = Record {
+            seq: self.next_seq,
+            entry,
+            annotator: self.annotator.clone(),
+            time: utc_timestamp(),
+            tool: crate::VERSION.to_string(),
+        };
+        let line = record.to_line();
+        let written = self
+            .file
+            .write_all(&line)
+            .and_then(|()| self.file.sync_data());
+        if let Err(e) = written {
+            // Cut back a partial line so the next append does not glue onto it.
+            let _ = self.file.set_len(self.len);
+            return Err(LedgerError::io(&self.path)(e));
+        }
+        self.len += line.len() as u64;
+        self.next_seq += 1;
+        self.records.push(record.clone());
+        Ok(record)
+    }
+
+    /// The ledger's records, in order (those found on open, then those appended).
+    pub fn records(&self) -> &[Record] {
+        &self.records
+    }
+
+    /// True when the correction with this sequence number was retracted.
+    pub fn is_retracted(&self, seq: u64) -> bool {
+        self.retracted.contains(&seq)
+    }
+
+    /// The ledger file.
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    /// The annotator who owns this ledger.
+    pub fn annotator(&self) -> &str {
+        &self.annotator
+    }
+
+    /// The sequence number the next record will get.
+    pub fn next_seq(&self) -> u64 {
+        self.next_seq
+    }
+}
+
+/// Copies a torn tail to a new side file (fsync'd), then cuts it from the ledger.
+fn set_aside(
+    path: &Path,
+    file: &File,
+    tail: &[u8],
+    whole_len: usize,
+    line: u64,
+) -> Result<SetAside, LedgerError> {
+    let side = create_side_file(path)?;
+    let (mut f, side_path) = side;
+    f.write_all(tail)
+        .and_then(|()| f.sync_all())
+        .map_err(LedgerError::io(&side_path))?;
+    if let Some(dir) = path.parent() {
+        sync_dir(dir)?;
+    }
+    file.set_len(whole_len as u64)
+        .and_then(|()| file.sync_all())
+        .map_err(LedgerError::io(path))?;
+    Ok(SetAside {
+        path: side_path,
+        line,
+        bytes: tail.len() as u64,
+    })
+}
+
+fn create_side_file(path: &Path) -> Result<(File, PathBuf), LedgerError> {
+    for n in 1u32.. {
+        let mut name = path.as_os_str().to_owned();
+        name.push(format!(".torn-{n}"));
+        let p = PathBuf::from(name);
+        match OpenOptions::new().write(true).create_new(true).open(&p) {
+            Ok(f) => return Ok((f, p)),
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
+            Err(e) => return Err(LedgerError::io(&p)(e)),
+        }
+    }
+    unreachable!("u32 side file names are never all taken")
+}
+
+/// Makes a directory entry durable (a new file's name survives a power cut).
+fn sync_dir(dir: &Path) -> Result<(), LedgerError> {
+    #[cfg(unix)]
+    {
+        File::open(dir)
+            .and_then(|d| d.sync_all())
+            .map_err(LedgerError::io(dir))?;
+    }
+    #[cfg(not(unix))]
+    let _ = dir;
+    Ok(())
+}
