@@ -11,5 +11,10 @@ pub mod export;
 pub mod ledger;
 pub mod progress;
 
+/// The safety caution carried by the README, the desktop program and every export manifest.
+pub const SAFETY_CAUTION: &str = "Corrected data does not make a policy safe. Robots and \
+vehicles can hurt people: test every policy trained on this data under the local regulations \
+and the site's safety procedures, with a person ready to stop the machine.";
+
 /// The tool's version, written into ledgers and manifests.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

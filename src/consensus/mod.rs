@@ -53,11 +53,24 @@ pub struct RoundTally {
     pub unrecoverable_votes: usize,
 }
 
+/// A ledger that went into a tally, for provenance.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LedgerSource {
+    /// The annotator.
+    pub annotator: String,
+    /// The ledger file.
+    pub path: std::path::PathBuf,
+    /// SHA-256 (hex) of the bytes that were read.
+    pub sha256: String,
+    /// Well-formed records read.
+    pub records: usize,
+}
+
 /// Everything the annotators said about a campaign, aggregated.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Tally {
-    /// Annotators whose ledgers were read, sorted.
-    pub annotators: Vec<String>,
+    /// The ledgers read, sorted by annotator.
+    pub ledgers: Vec<LedgerSource>,
     /// Steps with at least one standing verdict, by (round, row).
     pub steps: Vec<StepConsensus>,
     /// Counts per round, by round number (every round of the campaign).
@@ -119,7 +132,15 @@ pub fn tally(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Tally {
         .collect();
     let kinds = steps.iter().map(verdict_values).collect();
     Tally {
-        annotators: ledgers.iter().map(|l| l.annotator.clone()).collect(),
+        ledgers: ledgers
+            .iter()
+            .map(|l| LedgerSource {
+                annotator: l.annotator.clone(),
+                path: l.path.clone(),
+                sha256: l.sha256.clone(),
+                records: l.records.len(),
+            })
+            .collect(),
         rounds: round_counts(campaign, &steps),
         channels,
         verdicts: agreement("verdict", Metric::Nominal, kinds),

@@ -126,6 +126,7 @@ impl Book {
             problems: Vec::new(),
             incomplete_tail: 0,
             stamp: None,
+            sha256: String::new(),
         }
     }
 }

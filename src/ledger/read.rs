@@ -51,6 +51,8 @@ pub struct AnnotatorLedger {
     pub incomplete_tail: u64,
     /// The file's stamp when it was read.
     pub stamp: Option<FileStamp>,
+    /// SHA-256 (hex) of the bytes read, for provenance in exports.
+    pub sha256: String,
 }
 
 impl AnnotatorLedger {
@@ -123,6 +125,15 @@ pub(crate) fn parse(path: &Path, bytes: &[u8], annotator: &str) -> Parsed {
     out
 }
 
+/// SHA-256 of bytes as lowercase hex.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    use sha2::{Digest, Sha256};
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
 /// Reads one ledger file without locking it.
 pub fn read_ledger(path: &Path) -> Result<AnnotatorLedger, LedgerError> {
     let annotator = path
@@ -141,6 +152,7 @@ pub fn read_ledger(path: &Path) -> Result<AnnotatorLedger, LedgerError> {
         problems: p.problems,
         incomplete_tail: (bytes.len() - p.whole_len) as u64,
         stamp,
+        sha256: sha256_hex(&bytes),
     })
 }
 
