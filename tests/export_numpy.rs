@@ -23,7 +23,10 @@ print(json.dumps(out))
 "#;
 
 fn numpy_available() -> Result<(), String> {
-    match Command::new("python3").args(["-c", "import numpy"]).output() {
+    match Command::new("python3")
+        .args(["-c", "import numpy"])
+        .output()
+    {
         Err(e) => Err(format!("python3 cannot be started ({e})")),
         Ok(o) if !o.status.success() => Err("python3 has no numpy".into()),
         Ok(_) => Ok(()),
@@ -51,7 +54,12 @@ fn npz_export_loads_in_numpy_with_expected_shapes_dtypes_and_values() {
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     let n = expected.len() as u64;
     assert_eq!(n, 12 + 6);
-    let meta = |k: &str| (v[k]["dtype"].as_str().unwrap().to_string(), v[k]["shape"].clone());
+    let meta = |k: &str| {
+        (
+            v[k]["dtype"].as_str().unwrap().to_string(),
+            v[k]["shape"].clone(),
+        )
+    };
     let shape = |s: &[u64]| serde_json::json!(s);
     assert_eq!(meta("states"), ("<f4".into(), shape(&[n, 3])));
     assert_eq!(meta("actions"), ("<f4".into(), shape(&[n, 2])));
@@ -62,8 +70,14 @@ fn npz_export_loads_in_numpy_with_expected_shapes_dtypes_and_values() {
     assert_eq!(meta("weight"), ("<f4".into(), shape(&[n])));
     assert_eq!(meta("annotators"), ("<i8".into(), shape(&[n])));
     assert_eq!(meta("agreement"), ("<f4".into(), shape(&[n])));
-    assert_eq!(v["state_names"]["values"], serde_json::json!(["x", "y", "heading"]));
-    assert_eq!(v["action_names"]["values"], serde_json::json!(["steer", "speed"]));
+    assert_eq!(
+        v["state_names"]["values"],
+        serde_json::json!(["x", "y", "heading"])
+    );
+    assert_eq!(
+        v["action_names"]["values"],
+        serde_json::json!(["steer", "speed"])
+    );
     // Values: NumPy's float32 widened to float64 must equal ours exactly.
     let flat = |k: &str| -> Vec<Option<f64>> {
         let rows = v[k]["values"].as_array().unwrap();
@@ -78,15 +92,26 @@ fn npz_export_loads_in_numpy_with_expected_shapes_dtypes_and_values() {
     assert_eq!(flat("states"), widen(&expected.states));
     assert_eq!(flat("actions"), widen(&expected.actions));
     assert_eq!(flat("weight"), widen(&expected.weight));
-    let agreement: Vec<Option<f64>> = expected.agreement.iter().map(|a| a.map(f64::from)).collect();
+    let agreement: Vec<Option<f64>> = expected
+        .agreement
+        .iter()
+        .map(|a| a.map(f64::from))
+        .collect();
     assert_eq!(flat("agreement"), agreement);
-    let rounds: Vec<i64> = expected.round.iter().map(|r| r.map_or(-1, i64::from)).collect();
+    let rounds: Vec<i64> = expected
+        .round
+        .iter()
+        .map(|r| r.map_or(-1, i64::from))
+        .collect();
     assert_eq!(v["round"]["values"], serde_json::json!(rounds));
     assert_eq!(v["t"]["values"], serde_json::json!(expected.t));
     assert_eq!(v["episode"]["values"], serde_json::json!(expected.episode));
     let sources: Vec<&str> = expected.source.iter().map(|s| s.name()).collect();
     assert_eq!(v["source"]["values"], serde_json::json!(sources));
-    assert_eq!(v["annotators"]["values"], serde_json::json!(expected.annotators));
+    assert_eq!(
+        v["annotators"]["values"],
+        serde_json::json!(expected.annotators)
+    );
     // Spot values from the scenario: round 1 lane-00 t 4 is row 12 + 4.
     assert_eq!(v["agreement"]["values"][16], serde_json::json!(0.5));
     assert_eq!(v["actions"]["values"][16][1], serde_json::json!(0.0));
