@@ -2,7 +2,10 @@
 //! thin caller of library functions; errors are printed and mapped to exit codes here.
 
 mod check;
+mod correct;
+mod export;
 mod progress_bar;
+mod tally;
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -29,6 +32,12 @@ pub struct Cli {
 pub enum Command {
     /// Validate a campaign folder and print a summary, or every problem found.
     Check(check::CheckArgs),
+    /// Record one correction (or retract one) in an annotator's ledger.
+    Correct(correct::CorrectArgs),
+    /// Count corrections per round and measure agreement between annotators.
+    Tally(tally::TallyArgs),
+    /// Write the merged training set (demonstrations + consensus corrections) and its manifest.
+    Export(export::ExportArgs),
 }
 
 /// Parses the arguments and runs the program.
@@ -39,6 +48,9 @@ pub fn main() -> ExitCode {
             "the desktop workbench is not built yet; use a subcommand (see --help)",
         )),
         Some(Command::Check(a)) => check::run(a),
+        Some(Command::Correct(a)) => correct::run(a),
+        Some(Command::Tally(a)) => tally::run(a),
+        Some(Command::Export(a)) => export::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

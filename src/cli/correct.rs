@@ -1,0 +1,197 @@
+//! `countersteer correct DIR ...`: append one correction (or a retraction) to an annotator's
+//! ledger, for scripted or remote entry.
+
+use std::path::{Path, PathBuf};
+
+use clap::Args;
+
+use super::{CliError, campaign_dir};
+use crate::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
+use crate::ledger::{
+    ActionValue, Correction, Entry, Ledger, OpenReport, Record, Verdict, fingerprint,
+};
+use crate::progress::Progress;
+
+/// Arguments of `correct`.
+#[derive(Debug, Args)]
+#[command(allow_negative_numbers = true)]
+pub struct CorrectArgs {
+    /// Campaign folder (holds campaign.json).
+    pub dir: PathBuf,
+    /// Round of the step.
+    #[arg(long)]
+    pub round: Option<u32>,
+    /// Episode of the step.
+    #[arg(long)]
+    pub episode: Option<String>,
+    /// Time index of the step.
+    #[arg(long)]
+    pub t: Option<i64>,
+    /// Recovery action, one value per channel in spec order (numbers, or choice names for
+    /// discrete channels), comma-separated or repeated.
+    #[arg(long, value_delimiter = ',', allow_hyphen_values = true, group = "verdict")]
+    pub action: Vec<String>,
+    /// Pass on the step.
+    #[arg(long, group = "verdict")]
+    pub skip: bool,
+    /// No action could recover from this state.
+    #[arg(long, group = "verdict")]
+    pub unrecoverable: bool,
+    /// Withdraw the correction with this sequence number (undo).
+    #[arg(long, group = "verdict", value_name = "SEQ")]
+    pub retract: Option<u64>,
+    /// Annotator name (default: $COUNTERSTEER_ANNOTATOR, then $USER).
+    #[arg(long)]
+    pub annotator: Option<String>,
+    /// Free-text note stored with the correction.
+    #[arg(long)]
+    pub note: Option<String>,
+}
+
+/// The annotator: the option, else the environment.
+pub fn annotator_name(given: Option<String>) -> Result<String, CliError> {
+    given
+        .or_else(|| std::env::var("COUNTERSTEER_ANNOTATOR").ok())
+        .or_else(|| std::env::var("USER").ok())
+        .or_else(|| std::env::var("USERNAME").ok())
+        .filter(|s| !s.is_empty())
+        .ok_or_else(|| CliError::usage("say who you are with --annotator NAME"))
+}
+
+fn parse_action(spec: &Spec, values: &[String]) -> Result<Verdict, CliError> {
+    if values.len() != spec.action_dim() {
+        let names: Vec<&str> = spec.actions.iter().map(|c| c.name.as_str()).collect();
+        return Err(CliError::usage(format!(
+            "--action needs {} values ({}), got {}",
+            names.len(),
+            names.join(", "),
+            values.len()
+        )));
+    }
+    let mut out = Vec::new();
+    for (c, v) in spec.actions.iter().zip(values) {
+        out.push(match c.kind {
+            ChannelKind::Continuous { .. } => {
+                ActionValue::Number(v.trim().parse().map_err(|_| {
+                    CliError::usage(format!("--action: `{}` needs a number, got `{v}`", c.name))
+                })?)
+            }
+            ChannelKind::Discrete { .. } => ActionValue::Choice(v.trim().to_string()),
+        });
+    }
+    let verdict = Verdict::Action(out);
+    if let Some(Err(e)) = verdict.action_vector(spec) {
+        return Err(CliError::invalid(format!("--action: {e}")));
+    }
+    Ok(verdict)
+}
+
+fn step_correction(
+    a: &CorrectArgs,
+    c: &Campaign,
+    verdict: Verdict,
+) -> Result<Correction, CliError> {
+    let (Some(round), Some(episode), Some(t)) = (a.round, a.episode.clone(), a.t) else {
+        return Err(CliError::usage(
+            "a correction needs --round, --episode and --t",
+        ));
+    };
+    let table = &c
+        .round(round)
+        .ok_or_else(|| CliError::invalid(format!("the campaign has no round {round}")))?
+        .steps;
+    let row = table
+        .find(&episode, t)
+        .ok_or_else(|| CliError::invalid(format!("round {round} has no step `{episode}` t {t}")))?;
+    Ok(Correction {
+        round,
+        fingerprint: fingerprint(table, row),
+        episode,
+        t,
+        verdict,
+        note: a.note.clone(),
+    })
+}
+
+fn describe(spec: &Spec, r: &Record) -> String {
+    match &r.entry {
+        Entry::Retraction(x) => format!("#{}: retracts #{}", r.seq, x.retracts),
+        Entry::Correction(c) => {
+            let what = match c.verdict.action_vector(spec) {
+                Some(Ok(a)) => {
+                    let parts: Vec<String> = spec
+                        .actions
+                        .iter()
+                        .zip(&a)
+                        .map(|(ch, &v)| format!("{}={}", ch.name, ch.format_value(v)))
+                        .collect();
+                    format!("action {}", parts.join(" "))
+                }
+                _ => c.verdict.kind_name().to_string(),
+            };
+            format!(
+                "#{}: round {} `{}` t {}: {what}",
+                r.seq, c.round, c.episode, c.t
+            )
+        }
+    }
+}
+
+fn print_open_report(report: &OpenReport) {
+    if let Some(a) = &report.set_aside {
+        eprintln!(
+            "note: a torn last line (line {}, {} bytes, left by an interrupted write) was moved to {}",
+            a.line,
+            a.bytes,
+            a.path.display()
+        );
+    }
+    for p in &report.problems {
+        eprintln!("warning: {p} (line left in place and not used)");
+    }
+}
+
+/// Loads a campaign for a subcommand, printing its problems on failure.
+pub fn load(dir: &Path) -> Result<Campaign, CliError> {
+    let root = campaign_dir(&dir.to_path_buf())?;
+    load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
+        if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
+            for p in problems {
+                eprintln!("{p}");
+            }
+        }
+        CliError::invalid(format!("{}: {e}", root.display()))
+    })
+}
+
+/// Runs `correct`.
+pub fn run(a: CorrectArgs) -> Result<(), CliError> {
+    let annotator = annotator_name(a.annotator.clone())?;
+    let c = load(&a.dir)?;
+    let spec = c.spec();
+    let correction = if let Some(seq) = a.retract {
+        Err(seq)
+    } else {
+        let verdict = match (a.skip, a.unrecoverable, a.action.is_empty()) {
+            (true, _, _) => Verdict::Skip,
+            (_, true, _) => Verdict::Unrecoverable,
+            (_, _, false) => parse_action(spec, &a.action)?,
+            _ => {
+                return Err(CliError::usage(
+                    "give a verdict: --action ..., --skip, --unrecoverable or --retract SEQ",
+                ));
+            }
+        };
+        Ok(step_correction(&a, &c, verdict)?)
+    };
+    let (mut ledger, report) =
+        Ledger::open(&c.root, &annotator).map_err(|e| CliError::usage(e.to_string()))?;
+    print_open_report(&report);
+    let record = match correction {
+        Ok(corr) => ledger.append(corr),
+        Err(seq) => ledger.retract(seq),
+    }
+    .map_err(|e| CliError::invalid(e.to_string()))?;
+    println!("{annotator} {} (saved)", describe(spec, &record));
+    Ok(())
+}
