@@ -29,7 +29,12 @@ pub struct CorrectArgs {
     pub t: Option<i64>,
     /// Recovery action, one value per channel in spec order (numbers, or choice names for
     /// discrete channels), comma-separated or repeated.
-    #[arg(long, value_delimiter = ',', allow_hyphen_values = true, group = "verdict")]
+    #[arg(
+        long,
+        value_delimiter = ',',
+        allow_hyphen_values = true,
+        group = "verdict"
+    )]
     pub action: Vec<String>,
     /// Pass on the step.
     #[arg(long, group = "verdict")]

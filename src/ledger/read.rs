@@ -60,6 +60,15 @@ impl AnnotatorLedger {
     pub fn changed_on_disk(&self) -> bool {
         FileStamp::of(&self.path) != self.stamp
     }
+
+    /// Reads the file again when it changed on disk; returns whether it did.
+    pub fn refresh(&mut self) -> Result<bool, LedgerError> {
+        if !self.changed_on_disk() {
+            return Ok(false);
+        }
+        *self = read_ledger(&self.path)?;
+        Ok(true)
+    }
 }
 
 /// Parsed ledger bytes.

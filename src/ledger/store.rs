@@ -172,6 +172,16 @@ impl Ledger {
         &self.records
     }
 
+    /// This annotator's standing record for a step: the latest correction of it that is not
+    /// retracted.
+    pub fn standing(&self, round: u32, episode: &str, t: i64) -> Option<&Record> {
+        self.records.iter().rev().find(|r| {
+            r.correction()
+                .is_some_and(|c| c.round == round && c.episode == episode && c.t == t)
+                && !self.retracted.contains(&r.seq)
+        })
+    }
+
     /// True when the correction with this sequence number was retracted.
     pub fn is_retracted(&self, seq: u64) -> bool {
         self.retracted.contains(&seq)

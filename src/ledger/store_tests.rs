@@ -40,6 +40,7 @@ fn retraction_points_at_an_earlier_correction_once() {
     assert_eq!(r.entry, Entry::Retraction(Retraction { retracts: 1 }));
     assert_eq!(r.seq, 2);
     assert!(l.is_retracted(1));
+    assert!(l.standing(1, "lane-01", 1).is_none());
     assert!(matches!(
         l.retract(1),
         Err(LedgerError::AlreadyRetracted { seq: 1, .. })
@@ -168,6 +169,15 @@ fn readers_list_ledgers_and_notice_changes() {
     a.append(correction(2, Verdict::Skip)).unwrap();
     assert!(all[0].changed_on_disk());
     assert!(!all[1].changed_on_disk());
+    let mut ana = all[0].clone();
+    assert!(ana.refresh().unwrap());
+    assert_eq!(ana.records.len(), 2);
+    assert!(!ana.refresh().unwrap());
+    assert_eq!(
+        a.standing(1, "lane-01", 2).map(|r| r.seq),
+        Some(2),
+        "the writer's own view"
+    );
 }
 
 #[test]
