@@ -163,3 +163,38 @@ fn correct_refuses_a_ledger_held_by_another_writer_and_bad_input() {
     let l = countersteer::ledger::read_ledger(&d.join("ledgers/ana.jsonl")).unwrap();
     assert!(l.records.is_empty());
 }
+
+#[test]
+fn corrections_of_replaced_data_are_reported_by_tally_and_left_out_of_export() {
+    let dir = tempfile::tempdir().unwrap();
+    common::write_campaign(dir.path(), 5);
+    let d = dir.path();
+    ok(&correct(
+        d,
+        "ana",
+        ("1", "lane-00", "3"),
+        &["--action", "0.1,slow"],
+    ));
+    // The round's file is replaced by different data with the same episodes and times.
+    let other = common::table(9.0, 3, 30, "lane-");
+    let f = std::fs::File::create(d.join("rounds/1/steps.jsonl")).unwrap();
+    countersteer::campaign::write::write_jsonl(&other, &common::spec(), "rounds/1", f).unwrap();
+    let out = ok(&cs(&["tally", d.to_str().unwrap()]));
+    assert!(
+        out.contains("not applied: ana #1 (round 1 `lane-00` t 3): the step's data changed since"),
+        "{out}"
+    );
+    assert!(out.contains("round 1: 90 steps, 0 judged"), "{out}");
+    let merged = d.join("exports/m.jsonl");
+    let out = ok(&cs(&[
+        "export",
+        d.to_str().unwrap(),
+        "--out",
+        merged.to_str().unwrap(),
+    ]));
+    assert!(out.contains("(10 demonstration, 0 correction)"), "{out}");
+    assert!(
+        out.contains("not applied: 1 correction(s) whose step data changed"),
+        "{out}"
+    );
+}
