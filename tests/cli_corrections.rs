@@ -1,6 +1,7 @@
 //! `countersteer correct`, `tally` and `export` end to end, as separate processes.
 
-mod common;
+mod campaign_kit;
+use campaign_kit as common;
 
 use std::path::Path;
 use std::process::{Command, Output};

@@ -2,7 +2,8 @@
 //! shapes, dtypes and values. NumPy is the outside reference here; the test skips, saying
 //! why, when python3 or numpy is not installed (CI machines have neither).
 
-mod common;
+mod campaign_kit;
+use campaign_kit as common;
 
 use std::process::Command;
 
