@@ -12,9 +12,10 @@ pub mod ledger;
 pub mod progress;
 
 /// The safety caution carried by the README, the desktop program and every export manifest.
-pub const SAFETY_CAUTION: &str = "Corrected data does not make a policy safe. Robots and \
-vehicles can hurt people: test every policy trained on this data under the local regulations \
-and the site's safety procedures, with a person ready to stop the machine.";
+pub const SAFETY_CAUTION: &str = "Robots and vehicles can hurt people. Corrected data does not \
+make a policy safe: a policy trained on it can still fail in ways no review caught. Test robots \
+and vehicles under your local regulations and your site's safety procedures, with the \
+safeguards they require.";
 
 /// The tool's version, written into ledgers and manifests.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

@@ -119,7 +119,7 @@ fn two_annotators_correct_then_tally_and_export_agree_with_the_library() {
         "{out}"
     );
     assert!(
-        out.contains("caution: Corrected data does not make a policy safe."),
+        out.contains("caution: Robots and vehicles can hurt people. Corrected data does not make a policy safe"),
         "{out}"
     );
     let text = std::fs::read_to_string(&merged).unwrap();

@@ -135,5 +135,13 @@ pub fn run(a: TallyArgs) -> Result<(), CliError> {
         }
     }
     print_set_apart(&t);
+    for l in ledgers.iter().filter(|l| l.incomplete_tail > 0) {
+        println!(
+            "note: {} ends in {} bytes of an unfinished line (being written now, or torn by a crash; the next `correct` by {} sets it aside)",
+            l.path.display(),
+            l.incomplete_tail,
+            l.annotator
+        );
+    }
     Ok(())
 }
