@@ -5,6 +5,7 @@
 //! ([`app`]) and the command line only call it; nothing outside `app` knows about egui.
 
 pub mod campaign;
+pub mod novelty;
 pub mod cli;
 pub mod progress;
 
