@@ -8,6 +8,7 @@ pub mod campaign;
 pub mod novelty;
 pub mod cli;
 pub mod progress;
+pub mod review;
 
 /// The tool's version, written into ledgers and manifests.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

@@ -2,7 +2,9 @@
 //! thin caller of library functions; errors are printed and mapped to exit codes here.
 
 mod check;
+mod plan;
 mod progress_bar;
+mod score;
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -29,6 +31,10 @@ pub struct Cli {
 pub enum Command {
     /// Validate a campaign folder and print a summary, or every problem found.
     Check(check::CheckArgs),
+    /// Score every step of a round against the demonstrations and save the signals.
+    Score(score::ScoreArgs),
+    /// Choose the steps of a round the expert should review, under a budget.
+    Plan(plan::PlanArgs),
 }
 
 /// Parses the arguments and runs the program.
@@ -39,6 +45,8 @@ pub fn main() -> ExitCode {
             "the desktop workbench is not built yet; use a subcommand (see --help)",
         )),
         Some(Command::Check(a)) => check::run(a),
+        Some(Command::Score(a)) => score::run(a),
+        Some(Command::Plan(a)) => plan::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

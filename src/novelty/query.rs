@@ -99,3 +99,30 @@ pub fn distance(a: &[f32], b: &[f32]) -> f32 {
         .sum::<f32>()
         .sqrt()
 }
+
+/// Brute-force k nearest neighbours of a scaled query among all rows of the row-major
+/// `states` (scaled by `inv_scale` on the fly): the oracle for tests and the benchmark's
+/// baseline. Squared distances, ascending; ties by row.
+pub fn brute_knn(states: &[f32], dim: usize, inv_scale: &[f32], q: &[f32], k: usize) -> Vec<Hit> {
+    let mut all: Vec<Hit> = states
+        .chunks_exact(dim)
+        .enumerate()
+        .map(|(r, s)| {
+            let d2 = s
+                .iter()
+                .zip(inv_scale)
+                .zip(q)
+                .map(|((x, i), y)| (x * i - y) * (x * i - y))
+                .sum();
+            (r as u32, d2)
+        })
+        .collect();
+    let k = k.min(all.len());
+    if k == 0 {
+        return Vec::new();
+    }
+    all.select_nth_unstable_by(k - 1, |a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    all.truncate(k);
+    all.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    all
+}

@@ -47,6 +47,8 @@ pub struct RoundScores {
     pub threshold: f32,
     /// The flag level.
     pub alpha: f64,
+    /// The per-feature scales the novelty was measured with (`state_dim` values).
+    pub scale: Vec<f32>,
 }
 
 impl RoundScores {
@@ -87,6 +89,7 @@ impl RoundScores {
             k: m.k().min(m.index().len()),
             threshold: m.threshold(),
             alpha: m.alpha(),
+            scale: m.scale().to_vec(),
             ..Default::default()
         }
     }

@@ -19,6 +19,7 @@
 //! | `neighbours` | uint32 | (n, k) | demonstration rows of the neighbours, nearest first |
 //! | `threshold` | float32 | (1,) | novelty above which steps are flagged |
 //! | `alpha` | float64 | (1,) | flag level |
+//! | `scale` | float32 | (D,) | per-feature scales of the novelty distance |
 //!
 //! Scores are derived data: scoring again replaces the file (written beside it, then renamed,
 //! so a reader never sees half a file). Nothing the experts entered lives here.
@@ -119,6 +120,7 @@ pub fn write_npz<W: Write + std::io::Seek>(steps: &StepTable, s: &RoundScores, w
     put(&mut npz, "neighbours", &[n, s.k as u64], &s.neighbours)?;
     put(&mut npz, "threshold", &[1], &[s.threshold])?;
     put(&mut npz, "alpha", &[1], &[s.alpha])?;
+    put(&mut npz, "scale", &[s.state_dim as u64], &s.scale)?;
     Ok(())
 }
 
@@ -185,5 +187,6 @@ pub fn load_scores(root: &Path, round: u32, steps: &StepTable) -> Result<RoundSc
         neighbours: r.floats("neighbours", &[n, k])?.into_iter().map(|x| x as u32).collect(),
         threshold: r.f32s("threshold", &[1])?[0],
         alpha: r.floats("alpha", &[1])?[0],
+        scale: r.f32s("scale", &[d])?,
     })
 }
