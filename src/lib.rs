@@ -5,8 +5,8 @@
 //! ([`app`]) and the command line only call it; nothing outside `app` knows about egui.
 
 pub mod campaign;
-pub mod novelty;
 pub mod cli;
+pub mod novelty;
 pub mod progress;
 pub mod review;
 

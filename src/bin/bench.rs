@@ -38,12 +38,23 @@ struct Args {
 }
 
 fn args() -> Args {
-    let mut a = Args { runs: 3, only: Vec::new(), npy: None };
+    let mut a = Args {
+        runs: 3,
+        only: Vec::new(),
+        npy: None,
+    };
     let mut it = std::env::args().skip(1);
     while let Some(x) = it.next() {
         match x.as_str() {
             "--runs" => a.runs = it.next().and_then(|v| v.parse().ok()).unwrap_or(3),
-            "--only" => a.only = it.next().unwrap_or_default().split(',').map(String::from).collect(),
+            "--only" => {
+                a.only = it
+                    .next()
+                    .unwrap_or_default()
+                    .split(',')
+                    .map(String::from)
+                    .collect()
+            }
             "--npy" => a.npy = it.next().map(Into::into),
             _ => eprintln!("ignored argument {x}"),
         }
@@ -81,7 +92,9 @@ fn mb(kb: f64) -> f64 {
 }
 
 fn scales(t: &StepTable) -> Vec<f32> {
-    (0..t.state_dim).map(|j| robust_scale(t, j) as f32).collect()
+    (0..t.state_dim)
+        .map(|j| robust_scale(t, j) as f32)
+        .collect()
 }
 
 fn rollouts(episodes: usize, dim: usize, seed: u64) -> StepTable {
@@ -99,7 +112,12 @@ fn brute_per_query(demos: &StepTable, inv: &[f32], queries: &StepTable, n: usize
     let stride = (queries.len() / n).max(1);
     let (_, secs) = time(|| {
         (0..queries.len()).step_by(stride).take(n).for_each(|r| {
-            let q: Vec<f32> = queries.state(r).iter().zip(inv).map(|(x, i)| x * i).collect();
+            let q: Vec<f32> = queries
+                .state(r)
+                .iter()
+                .zip(inv)
+                .map(|(x, i)| x * i)
+                .collect();
             std::hint::black_box(brute_knn(&demos.states, demos.state_dim, inv, &q, K));
         })
     });
@@ -116,10 +134,23 @@ fn w1(a: &Args) {
     let mut peak = 0.0f64;
     for _ in 0..a.runs {
         let before = reset_peak();
-        let (model, b) = time(|| build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model"));
-        let (_scores, s) = time(|| score_steps(&model, &demos, &channels, &steps, &p).expect("score"));
+        let (model, b) =
+            time(|| build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model"));
+        let (_scores, s) =
+            time(|| score_steps(&model, &demos, &channels, &steps, &p).expect("score"));
         peak = peak.max(status_kb("VmHWM:") - before);
-        let (_h, q) = time(|| knn_rows(model.index(), model.inv_scale(), &steps, &all_rows(&steps), K, false, "", &p));
+        let (_h, q) = time(|| {
+            knn_rows(
+                model.index(),
+                model.inv_scale(),
+                &steps,
+                &all_rows(&steps),
+                K,
+                false,
+                "",
+                &p,
+            )
+        });
         build.push(b);
         score.push(s);
         plain.push(q);
@@ -128,13 +159,30 @@ fn w1(a: &Args) {
     let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
     let brute = brute_per_query(&demos, model.inv_scale(), &steps, 100);
     let raw = (demos.states.len() + steps.states.len()) as f64 * 4.0 / 1e6;
-    println!("index build + calibration   {b:8.3} s  ({} calibration states)", model.conformal().len());
+    println!(
+        "index build + calibration   {b:8.3} s  ({} calibration states)",
+        model.conformal().len()
+    );
     println!("scoring 100k steps (seeded) {s:8.3} s  (all signals)");
-    println!("end to end                  {:8.3} s  target < 3 s: {}", b + s, verdict(b + s < 3.0));
-    println!("baseline plain queries      {q:8.3} s  for the same 100k steps (k-NN only); seeded scoring is {:.1}x faster", q / s);
+    println!(
+        "end to end                  {:8.3} s  target < 3 s: {}",
+        b + s,
+        verdict(b + s < 3.0)
+    );
+    println!(
+        "baseline plain queries      {q:8.3} s  for the same 100k steps (k-NN only); seeded scoring is {:.1}x faster",
+        q / s
+    );
     println!("baseline plain end to end   {:8.3} s", b + q);
-    println!("baseline brute force        {:8.3} s  estimated for 100k steps ({:.0} us/query, 1 thread)", brute * 1e5, brute * 1e6);
-    println!("peak memory above start     {:8.1} MB (raw f32 states {raw:.1} MB)", mb(peak));
+    println!(
+        "baseline brute force        {:8.3} s  estimated for 100k steps ({:.0} us/query, 1 thread)",
+        brute * 1e5,
+        brute * 1e6
+    );
+    println!(
+        "peak memory above start     {:8.1} MB (raw f32 states {raw:.1} MB)",
+        mb(peak)
+    );
 }
 
 fn verdict(ok: bool) -> &'static str {
@@ -159,12 +207,22 @@ fn w2(a: &Args) {
     let s = rows.len() as f64 / median(seeded);
     let q = sub.len() as f64 / median(plain);
     println!("index build                 {build:8.3} s");
-    println!("seeded queries              {s:10.0} queries/s ({:.2} us/query)", 1e6 / s);
-    println!("baseline plain queries      {q:10.0} queries/s ({:.2} us/query, first 100k)", 1e6 / q);
+    println!(
+        "seeded queries              {s:10.0} queries/s ({:.2} us/query)",
+        1e6 / s
+    );
+    println!(
+        "baseline plain queries      {q:10.0} queries/s ({:.2} us/query, first 100k)",
+        1e6 / q
+    );
     println!("seeded / plain              {:8.2}x", s / q);
     if let Some(dir) = &a.npy {
         write_npy(dir, &demos, &queries, &inv, s);
-        println!("wrote {} ; run: python3 bench/scipy_knn.py {}", dir.display(), dir.display());
+        println!(
+            "wrote {} ; run: python3 bench/scipy_knn.py {}",
+            dir.display(),
+            dir.display()
+        );
     }
 }
 
@@ -179,11 +237,17 @@ fn write_npy(dir: &std::path::Path, demos: &StepTable, queries: &StepTable, inv:
             .writer(std::io::BufWriter::new(f))
             .begin_nd()
             .expect("npy");
-        let scaled = t.states.chunks_exact(t.state_dim).flat_map(|s| s.iter().zip(inv).map(|(x, i)| x * i));
+        let scaled = t
+            .states
+            .chunks_exact(t.state_dim)
+            .flat_map(|s| s.iter().zip(inv).map(|(x, i)| x * i));
         w.extend(scaled).expect("write npy");
         w.finish().expect("finish npy");
     }
-    let _ = std::fs::write(dir.join("countersteer.json"), format!("{{\"queries_per_second\": {qps}, \"k\": {K}}}\n"));
+    let _ = std::fs::write(
+        dir.join("countersteer.json"),
+        format!("{{\"queries_per_second\": {qps}, \"k\": {K}}}\n"),
+    );
 }
 
 fn w3(a: &Args) {
@@ -208,16 +272,26 @@ fn w3(a: &Args) {
         for r in (0..steps.len()).step_by(steps.len() / 200) {
             let q: Vec<f32> = steps.state(r).iter().zip(inv).map(|(x, i)| x * i).collect();
             let exact = brute_knn(&demos.states, 64, inv, &q, K)[K - 1].1.sqrt();
-            let rel = (f64::from(scores.novelty[r]) - f64::from(exact)).abs() / f64::from(exact).max(1e-12);
+            let rel = (f64::from(scores.novelty[r]) - f64::from(exact)).abs()
+                / f64::from(exact).max(1e-12);
             worst = worst.max(rel);
             n += 1;
         }
     });
     let t = median(totals);
     println!("search path                 {}", model.index().path());
-    println!("build + calibrate + score   {t:8.3} s  target < 10 s: {}", verdict(t < 10.0));
-    println!("accuracy vs brute force     max relative error of the k-th distance {worst:.2e} over {n} steps");
-    println!("baseline brute force        {:8.3} s  estimated for 100k steps ({:.0} us/query, 1 thread)", brute / n as f64 * 1e5, brute / n as f64 * 1e6);
+    println!(
+        "build + calibrate + score   {t:8.3} s  target < 10 s: {}",
+        verdict(t < 10.0)
+    );
+    println!(
+        "accuracy vs brute force     max relative error of the k-th distance {worst:.2e} over {n} steps"
+    );
+    println!(
+        "baseline brute force        {:8.3} s  estimated for 100k steps ({:.0} us/query, 1 thread)",
+        brute / n as f64 * 1e5,
+        brute / n as f64 * 1e6
+    );
 }
 
 fn plan_bench(a: &Args) {
@@ -228,8 +302,14 @@ fn plan_bench(a: &Args) {
     let p = Progress::new();
     let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
     let scores = score_steps(&model, &demos, &channels, &steps, &p).expect("score");
-    let settings = PlanSettings { budget: 500, ..Default::default() };
-    let all = PlanSettings { pool_factor: usize::MAX / 1024, ..settings.clone() };
+    let settings = PlanSettings {
+        budget: 500,
+        ..Default::default()
+    };
+    let all = PlanSettings {
+        pool_factor: usize::MAX / 1024,
+        ..settings.clone()
+    };
     let (mut first, mut again, mut base) = (vec![], vec![], vec![]);
     let mut peak = 0.0f64;
     let mut last = None;
@@ -253,17 +333,34 @@ fn plan_bench(a: &Args) {
     let raw = (steps.states.len() + steps.actions.len()) as f64 * 4.0 / 1e6;
     let list = last.unwrap_or_default();
     let t = median(first);
-    println!("candidates / pool / entries {} / {} / {}", list.candidates, list.pool, list.entries.len());
-    println!("plan from scores            {:8.1} ms target < 1 s: {}", t * 1e3, verdict(t < 1.0));
+    println!(
+        "candidates / pool / entries {} / {} / {}",
+        list.candidates,
+        list.pool,
+        list.entries.len()
+    );
+    println!(
+        "plan from scores            {:8.1} ms target < 1 s: {}",
+        t * 1e3,
+        verdict(t < 1.0)
+    );
     println!("re-plan with 100 corrections{:8.1} ms", median(again) * 1e3);
     println!("baseline k-center, no pool  {:8.1} ms", median(base) * 1e3);
-    println!("peak memory of planning     {:8.1} MB (raw f32 step data {raw:.1} MB): target < 2x: {}", mb(peak), verdict(mb(peak) < 2.0 * raw));
+    println!(
+        "peak memory of planning     {:8.1} MB (raw f32 step data {raw:.1} MB): target < 2x: {}",
+        mb(peak),
+        verdict(mb(peak) < 2.0 * raw)
+    );
 }
 
 fn main() {
     let a = args();
     let want = |s: &str| a.only.is_empty() || a.only.iter().any(|o| o == s);
-    println!("countersteer bench: {} run(s) per figure, {} threads", a.runs, rayon::current_num_threads());
+    println!(
+        "countersteer bench: {} run(s) per figure, {} threads",
+        a.runs,
+        rayon::current_num_threads()
+    );
     if want("w1") {
         w1(&a);
     }

@@ -40,8 +40,14 @@ pub struct PlanArgs {
 fn scores_for(c: &Campaign, a: &PlanArgs, steps: &StepTable) -> Result<RoundScores, CliError> {
     if !a.rescore && scores_path(&c.root, a.round).is_file() {
         match load_scores(&c.root, a.round, steps) {
-            Ok(s) if s.k == c.file.novelty.k.min(c.demonstrations.len()) && s.alpha == c.file.novelty.alpha => {
-                eprintln!("using saved scores in {}", scores_path(&c.root, a.round).display());
+            Ok(s)
+                if s.k == c.file.novelty.k.min(c.demonstrations.len())
+                    && s.alpha == c.file.novelty.alpha =>
+            {
+                eprintln!(
+                    "using saved scores in {}",
+                    scores_path(&c.root, a.round).display()
+                );
                 return Ok(s);
             }
             Ok(_) => eprintln!("saved scores were made with other novelty settings; scoring again"),
@@ -73,7 +79,8 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
     };
     let list = plan(steps, &scores, &[], &settings);
     print_list(steps, &list);
-    let path = save_review_list(&c.root, a.round, steps, &list).map_err(|e| CliError::invalid(e.to_string()))?;
+    let path = save_review_list(&c.root, a.round, steps, &list)
+        .map_err(|e| CliError::invalid(e.to_string()))?;
     println!("wrote {}", path.display());
     Ok(())
 }
@@ -86,7 +93,10 @@ fn print_list(steps: &StepTable, list: &ReviewList) {
         list.pool,
         list.covering_radius
     );
-    println!("{:>4}  {:<24} {:>7}  {:>8} {:>9} {:>7}  reasons", "#", "episode", "t", "novelty", "p-value", "gap");
+    println!(
+        "{:>4}  {:<24} {:>7}  {:>8} {:>9} {:>7}  reasons",
+        "#", "episode", "t", "novelty", "p-value", "gap"
+    );
     for (i, e) in list.entries.iter().enumerate() {
         let reasons: Vec<&str> = e.reasons.iter().map(|r| r.as_str()).collect();
         println!(

@@ -30,7 +30,10 @@ pub fn load(dir: &PathBuf) -> Result<Campaign, CliError> {
     let progress = Progress::new();
     let _bar = Bar::follow(&progress);
     load_campaign(&dir, &LoadOptions::default(), &progress).map_err(|e| {
-        CliError::invalid(format!("{e}\n(run `countersteer check {}` for every problem)", dir.display()))
+        CliError::invalid(format!(
+            "{e}\n(run `countersteer check {}` for every problem)",
+            dir.display()
+        ))
     })
 }
 
@@ -38,7 +41,10 @@ pub fn load(dir: &PathBuf) -> Result<Campaign, CliError> {
 pub fn build_and_score(c: &Campaign, round: u32) -> Result<(NoveltyModel, RoundScores), CliError> {
     let r = c.round(round).ok_or_else(|| {
         let have: Vec<String> = c.rounds.iter().map(|r| r.number.to_string()).collect();
-        CliError::usage(format!("no round {round} in rounds/ (found: {})", have.join(", ")))
+        CliError::usage(format!(
+            "no round {round} in rounds/ (found: {})",
+            have.join(", ")
+        ))
     })?;
     let progress = Progress::new();
     let _bar = Bar::follow(&progress);
@@ -52,8 +58,12 @@ pub fn build_and_score(c: &Campaign, round: u32) -> Result<(NoveltyModel, RoundS
 pub fn run(a: ScoreArgs) -> Result<(), CliError> {
     let c = load(&a.dir)?;
     let (model, scores) = build_and_score(&c, a.round)?;
-    let steps = &c.round(a.round).ok_or_else(|| CliError::usage("round vanished"))?.steps;
-    let path = save_scores(&c.root, a.round, steps, &scores).map_err(|e| CliError::invalid(e.to_string()))?;
+    let steps = &c
+        .round(a.round)
+        .ok_or_else(|| CliError::usage("round vanished"))?
+        .steps;
+    let path = save_scores(&c.root, a.round, steps, &scores)
+        .map_err(|e| CliError::invalid(e.to_string()))?;
     print_summary(&c, &model, steps, &scores, a.worst);
     println!("wrote {}", path.display());
     Ok(())
@@ -69,7 +79,11 @@ fn print_summary(
     let n = s.len();
     let flagged = s.flagged_count();
     let split = model.split();
-    println!("round scored against {} demonstration states ({})", c.demonstrations.len(), model.index().path());
+    println!(
+        "round scored against {} demonstration states ({})",
+        c.demonstrations.len(),
+        model.index().path()
+    );
     println!(
         "  calibration: {} held-out episodes, {} states; k = {}, alpha = {}",
         split.calibration.len(),
@@ -77,10 +91,21 @@ fn print_summary(
         model.k(),
         model.alpha()
     );
-    println!("  flag threshold: novelty > {:.4} (scaled units)", s.threshold);
-    println!("  steps: {n}, flagged: {flagged} ({:.1}%)", 100.0 * flagged as f64 / n.max(1) as f64);
+    println!(
+        "  flag threshold: novelty > {:.4} (scaled units)",
+        s.threshold
+    );
+    println!(
+        "  steps: {n}, flagged: {flagged} ({:.1}%)",
+        100.0 * flagged as f64 / n.max(1) as f64
+    );
     let ex = excursions(steps, s, &ExcursionSettings::default());
-    println!("  excursions: {} in {} of {} episodes", ex.len(), count_episodes(&ex), steps.episodes.len());
+    println!(
+        "  excursions: {} in {} of {} episodes",
+        ex.len(),
+        count_episodes(&ex),
+        steps.episodes.len()
+    );
     print_features(c, s);
     print_worst(steps, s, &ex, worst);
 }
@@ -108,12 +133,26 @@ fn print_features(c: &Campaign, s: &RoundScores) {
     let top: Vec<String> = order
         .iter()
         .take(3)
-        .map(|&j| format!("{} {:.0}%", c.spec().features[j].name, 100.0 * total[j] / sum))
+        .map(|&j| {
+            format!(
+                "{} {:.0}%",
+                c.spec().features[j].name,
+                100.0 * total[j] / sum
+            )
+        })
         .collect();
-    println!("  features that make flagged steps novel: {}", top.join(", "));
+    println!(
+        "  features that make flagged steps novel: {}",
+        top.join(", ")
+    );
 }
 
-fn print_worst(steps: &crate::campaign::StepTable, s: &RoundScores, ex: &[crate::review::Excursion], worst: usize) {
+fn print_worst(
+    steps: &crate::campaign::StepTable,
+    s: &RoundScores,
+    ex: &[crate::review::Excursion],
+    worst: usize,
+) {
     let mut eps: Vec<(usize, usize, f32)> = steps
         .episodes
         .iter()
@@ -133,7 +172,12 @@ fn print_worst(steps: &crate::campaign::StepTable, s: &RoundScores, ex: &[crate:
     for (i, f, m) in eps.into_iter().take(worst) {
         let e = &steps.episodes[i];
         let first = ex.iter().find(|x| x.episode == i).map(|x| steps.t[x.onset]);
-        let onset = first.map_or("no excursion".to_string(), |t| format!("first excursion at t = {t}"));
-        println!("    {:<24} {f:>6} of {:>6} flagged, max novelty {m:.3}, {onset}", e.name, e.len);
+        let onset = first.map_or("no excursion".to_string(), |t| {
+            format!("first excursion at t = {t}")
+        });
+        println!(
+            "    {:<24} {f:>6} of {:>6} flagged, max novelty {m:.3}, {onset}",
+            e.name, e.len
+        );
     }
 }

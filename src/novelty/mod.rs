@@ -37,7 +37,9 @@ pub enum NoveltyError {
         found: usize,
     },
     /// The fit part holds fewer states than neighbours asked for.
-    #[error("campaign.json novelty.k: k = {k} but the fit demonstrations hold only {states} state(s)")]
+    #[error(
+        "campaign.json novelty.k: k = {k} but the fit demonstrations hold only {states} state(s)"
+    )]
     TooFewStates {
         /// The campaign's k.
         k: usize,

@@ -20,11 +20,11 @@
 //! against the fit index, its p-value at least as large, and the flag rate on fresh expert
 //! states stays at most alpha (conservative rather than exact).
 
+use super::NoveltyError;
 use super::conformal::Conformal;
 use super::index::{Hit, KnnIndex};
 use super::query::seeded_knn;
 use super::scale::feature_scales;
-use super::NoveltyError;
 use crate::campaign::{Campaign, StepTable};
 use crate::progress::Progress;
 
@@ -87,7 +87,13 @@ fn rows_of(demos: &StepTable, episodes: &[usize]) -> Vec<u32> {
 pub fn build_model(campaign: &Campaign, progress: &Progress) -> Result<NoveltyModel, NoveltyError> {
     let demos = &campaign.demonstrations;
     let settings = &campaign.file.novelty;
-    build_model_from(demos, feature_scales(campaign.spec(), demos), settings.k, settings.alpha, progress)
+    build_model_from(
+        demos,
+        feature_scales(campaign.spec(), demos),
+        settings.k,
+        settings.alpha,
+        progress,
+    )
 }
 
 /// Builds the model from parts: demonstrations, per-feature scales, k and alpha.
@@ -105,14 +111,26 @@ pub fn build_model_from(
     let split = split_episodes(demos)?;
     let fit_rows = rows_of(demos, &split.fit);
     if k == 0 || fit_rows.len() < k {
-        return Err(NoveltyError::TooFewStates { k, states: fit_rows.len() });
+        return Err(NoveltyError::TooFewStates {
+            k,
+            states: fit_rows.len(),
+        });
     }
     let inv_scale: Vec<f32> = scale.iter().map(|s| 1.0 / s).collect();
     progress.stage("indexing", 2);
-    let fit = KnnIndex::build(&demos.states, d, &inv_scale, &fit_rows).map_err(NoveltyError::Index)?;
+    let fit =
+        KnnIndex::build(&demos.states, d, &inv_scale, &fit_rows).map_err(NoveltyError::Index)?;
     progress.advance(1);
     let cal_rows = calibration_rows(demos, &split.calibration);
-    let hits = seeded_knn(&fit, &inv_scale, demos, &cal_rows, k, "calibrating", progress)?;
+    let hits = seeded_knn(
+        &fit,
+        &inv_scale,
+        demos,
+        &cal_rows,
+        k,
+        "calibrating",
+        progress,
+    )?;
     let novelties: Vec<f32> = hits.chunks_exact(k).map(|h| kth_distance(h)).collect();
     drop(fit);
     let all: Vec<u32> = (0..demos.len() as u32).collect();
@@ -202,11 +220,15 @@ impl NoveltyModel {
         self.scale_into(state, &mut q);
         let mut hits = Vec::new();
         self.index.knn(&q, k, f32::INFINITY, &mut hits);
-        hits.iter().map(|&(r, d2)| (r as usize, d2.max(0.0).sqrt())).collect()
+        hits.iter()
+            .map(|&(r, d2)| (r as usize, d2.max(0.0).sqrt()))
+            .collect()
     }
 
     /// Novelty of a raw state: the distance to its k-th nearest demonstration state.
     pub fn novelty(&self, state: &[f32]) -> f32 {
-        self.nearest(state, self.k).last().map_or(f32::INFINITY, |h| h.1)
+        self.nearest(state, self.k)
+            .last()
+            .map_or(f32::INFINITY, |h| h.1)
     }
 }

@@ -44,7 +44,9 @@ pub fn robust_scale(t: &StepTable, j: usize) -> f64 {
     }
     let (lo, hi) = v
         .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        });
     let med = median(&mut v);
     let mut dev: Vec<f64> = v.iter().map(|x| (x - med).abs()).collect();
     let mad = median(&mut dev) * MAD_TO_SD;

@@ -7,9 +7,7 @@ use super::NoveltyError;
 use super::index::Hit;
 use super::model::NoveltyModel;
 use super::query::seeded_knn;
-use super::signals::{
-    channel_gap, consensus, contributions, ensemble_spread, rms, weights,
-};
+use super::signals::{channel_gap, consensus, contributions, ensemble_spread, rms, weights};
 use crate::campaign::{ActionChannel, Campaign, StepTable};
 use crate::progress::Progress;
 
@@ -114,7 +112,13 @@ pub fn score_round(
     steps: &StepTable,
     progress: &Progress,
 ) -> Result<RoundScores, NoveltyError> {
-    score_steps(model, &campaign.demonstrations, &campaign.spec().actions, steps, progress)
+    score_steps(
+        model,
+        &campaign.demonstrations,
+        &campaign.spec().actions,
+        steps,
+        progress,
+    )
 }
 
 /// Scores `steps` against the model built from `demos`, with the spec's action channels.
@@ -133,8 +137,22 @@ pub fn score_steps(
     }
     let rows: Vec<usize> = (0..steps.len()).collect();
     let k = model.k().min(model.index().len());
-    let hits = seeded_knn(model.index(), model.inv_scale(), steps, &rows, k, "scoring", progress)?;
-    let ctx = Ctx { model, demos, channels, steps, k };
+    let hits = seeded_knn(
+        model.index(),
+        model.inv_scale(),
+        steps,
+        &rows,
+        k,
+        "scoring",
+        progress,
+    )?;
+    let ctx = Ctx {
+        model,
+        demos,
+        channels,
+        steps,
+        k,
+    };
     let parts: Vec<RoundScores> = rows
         .par_chunks(4096)
         .map(|chunk| ctx.signals(chunk, &hits))
@@ -168,7 +186,8 @@ impl Ctx<'_> {
             s.p_value.push(p as f32);
             s.flagged.push(p <= self.model.alpha());
             self.model.scale_into(self.steps.state(row), &mut x);
-            self.model.scale_into(self.demos.state(h[0].0 as usize), &mut near);
+            self.model
+                .scale_into(self.demos.state(h[0].0 as usize), &mut near);
             contributions(&x, &near, &mut share);
             s.contributions.extend_from_slice(&share);
             s.neighbours.extend(h.iter().map(|h| h.0));
@@ -176,7 +195,10 @@ impl Ctx<'_> {
             let mut gaps = Vec::with_capacity(a);
             let mut spreads = Vec::with_capacity(a);
             for (c, ch) in self.channels.iter().enumerate() {
-                let values: Vec<f32> = h.iter().map(|h| self.demos.action(h.0 as usize)[c]).collect();
+                let values: Vec<f32> = h
+                    .iter()
+                    .map(|h| self.demos.action(h.0 as usize)[c])
+                    .collect();
                 let (m, spread) = consensus(ch, &values, &w);
                 s.neighbour_action.push(m);
                 gaps.push(channel_gap(ch, self.steps.action(row)[c], m));
@@ -184,7 +206,8 @@ impl Ctx<'_> {
             }
             s.action_gap.push(rms(gaps.into_iter()));
             s.neighbour_spread.push(rms(spreads.into_iter()));
-            s.ensemble_spread.push(ensemble_spread(self.channels, self.steps.samples(row)));
+            s.ensemble_spread
+                .push(ensemble_spread(self.channels, self.steps.samples(row)));
         }
         s
     }

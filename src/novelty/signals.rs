@@ -145,9 +145,9 @@ mod tests {
                 choices: vec!["low".into(), "high".into()],
             },
         };
-        let (m, s) = consensus(&ch, &[1.0, 0.0, 1.0], &[0.2, 0.5, 0.3]);
+        let (m, s) = consensus(&ch, &[1.0, 0.0, 1.0], &[0.2, 0.4, 0.4]);
         assert_eq!(m, 1.0);
-        assert!((s - 0.5).abs() < 1e-6);
+        assert!((s - 0.4).abs() < 1e-6);
         assert_eq!(channel_gap(&ch, 0.0, 1.0), 1.0);
     }
 }

@@ -58,7 +58,10 @@ fn store_err(path: &Path, message: impl std::fmt::Display) -> NoveltyError {
 }
 
 /// Writes `bytes` to `path` atomically (a temporary sibling, flushed, then renamed).
-pub fn write_atomic(path: &Path, write: impl FnOnce(&mut BufWriter<File>) -> std::io::Result<()>) -> Result<(), NoveltyError> {
+pub fn write_atomic(
+    path: &Path,
+    write: impl FnOnce(&mut BufWriter<File>) -> std::io::Result<()>,
+) -> Result<(), NoveltyError> {
     let dir = path.parent().unwrap_or(Path::new("."));
     std::fs::create_dir_all(dir).map_err(|e| store_err(dir, e))?;
     let tmp = path.with_extension("partial");
@@ -71,7 +74,12 @@ pub fn write_atomic(path: &Path, write: impl FnOnce(&mut BufWriter<File>) -> std
 }
 
 /// Saves scores of `steps` to `analysis/<round>/scores.npz` and returns the path.
-pub fn save_scores(root: &Path, round: u32, steps: &StepTable, s: &RoundScores) -> Result<PathBuf, NoveltyError> {
+pub fn save_scores(
+    root: &Path,
+    round: u32,
+    steps: &StepTable,
+    s: &RoundScores,
+) -> Result<PathBuf, NoveltyError> {
     let path = scores_path(root, round);
     write_atomic(&path, |w| write_npz(steps, s, w))?;
     Ok(path)
@@ -89,13 +97,21 @@ fn put<T: npyz::Serialize + npyz::AutoSerialize + Copy, W: Write + std::io::Seek
     shape: &[u64],
     values: &[T],
 ) -> std::io::Result<()> {
-    let mut arr = npz.array::<T>(name, opts())?.default_dtype().shape(shape).begin_nd()?;
+    let mut arr = npz
+        .array::<T>(name, opts())?
+        .default_dtype()
+        .shape(shape)
+        .begin_nd()?;
     arr.extend(values.iter().copied())?;
     arr.finish()
 }
 
 /// Writes the scores archive (see the module documentation) to any seekable writer.
-pub fn write_npz<W: Write + std::io::Seek>(steps: &StepTable, s: &RoundScores, w: W) -> std::io::Result<()> {
+pub fn write_npz<W: Write + std::io::Seek>(
+    steps: &StepTable,
+    s: &RoundScores,
+    w: W,
+) -> std::io::Result<()> {
     let mut npz = npyz::npz::NpzWriter::new(w);
     let n = s.len() as u64;
     let names: Vec<String> = steps
@@ -103,18 +119,41 @@ pub fn write_npz<W: Write + std::io::Seek>(steps: &StepTable, s: &RoundScores, w
         .iter()
         .flat_map(|e| std::iter::repeat_n(e.name.clone(), e.len))
         .collect();
-    let width = names.iter().map(|s| s.chars().count()).max().unwrap_or(1).max(1);
-    let dtype = npyz::DType::Plain(format!("<U{width}").parse().map_err(std::io::Error::other)?);
-    let mut arr = npz.array::<String>("episode", opts())?.dtype(dtype).shape(&[n]).begin_nd()?;
+    let width = names
+        .iter()
+        .map(|s| s.chars().count())
+        .max()
+        .unwrap_or(1)
+        .max(1);
+    let dtype = npyz::DType::Plain(
+        format!("<U{width}")
+            .parse()
+            .map_err(std::io::Error::other)?,
+    );
+    let mut arr = npz
+        .array::<String>("episode", opts())?
+        .dtype(dtype)
+        .shape(&[n])
+        .begin_nd()?;
     arr.extend(names.iter().cloned())?;
     arr.finish()?;
     put(&mut npz, "t", &[n], &steps.t)?;
     put(&mut npz, "novelty", &[n], &s.novelty)?;
     put(&mut npz, "p_value", &[n], &s.p_value)?;
     put(&mut npz, "flagged", &[n], &s.flagged)?;
-    put(&mut npz, "contributions", &[n, s.state_dim as u64], &s.contributions)?;
+    put(
+        &mut npz,
+        "contributions",
+        &[n, s.state_dim as u64],
+        &s.contributions,
+    )?;
     put(&mut npz, "action_gap", &[n], &s.action_gap)?;
-    put(&mut npz, "neighbour_action", &[n, s.action_dim as u64], &s.neighbour_action)?;
+    put(
+        &mut npz,
+        "neighbour_action",
+        &[n, s.action_dim as u64],
+        &s.neighbour_action,
+    )?;
     put(&mut npz, "neighbour_spread", &[n], &s.neighbour_spread)?;
     put(&mut npz, "ensemble_spread", &[n], &s.ensemble_spread)?;
     put(&mut npz, "neighbours", &[n, s.k as u64], &s.neighbours)?;
@@ -139,7 +178,10 @@ impl Reader {
         if a.shape != shape {
             return Err(store_err(
                 &self.path,
-                format!("array `{name}` has shape {:?}, expected {shape:?}; score the round again", a.shape),
+                format!(
+                    "array `{name}` has shape {:?}, expected {shape:?}; score the round again",
+                    a.shape
+                ),
             ));
         }
         Ok(a)
@@ -149,18 +191,29 @@ impl Reader {
         match self.array(name, shape)?.values {
             Values::Numbers(v) => Ok(v),
             Values::Integers(v) => Ok(v.into_iter().map(|x| x as f64).collect()),
-            Values::Text(_) => Err(store_err(&self.path, format!("array `{name}` holds text, not numbers"))),
+            Values::Text(_) => Err(store_err(
+                &self.path,
+                format!("array `{name}` holds text, not numbers"),
+            )),
         }
     }
 
     fn f32s(&mut self, name: &str, shape: &[u64]) -> Result<Vec<f32>, NoveltyError> {
-        Ok(self.floats(name, shape)?.into_iter().map(|x| x as f32).collect())
+        Ok(self
+            .floats(name, shape)?
+            .into_iter()
+            .map(|x| x as f32)
+            .collect())
     }
 }
 
 /// Loads saved scores of a round; refuses a file whose step count or dimensions do not match
 /// `steps` (the round changed since it was scored).
-pub fn load_scores(root: &Path, round: u32, steps: &StepTable) -> Result<RoundScores, NoveltyError> {
+pub fn load_scores(
+    root: &Path,
+    round: u32,
+    steps: &StepTable,
+) -> Result<RoundScores, NoveltyError> {
     let path = scores_path(root, round);
     let src = NpzSource::open(&path).map_err(|e| store_err(&path, e))?;
     let mut r = Reader { src, path };
@@ -168,23 +221,40 @@ pub fn load_scores(root: &Path, round: u32, steps: &StepTable) -> Result<RoundSc
     let (d, a) = (steps.state_dim as u64, steps.action_dim as u64);
     let t = r.floats("t", &[n])?;
     if t.iter().zip(&steps.t).any(|(x, y)| *x as i64 != *y) {
-        return Err(store_err(&r.path, "array `t` does not match the round's steps; score the round again"));
+        return Err(store_err(
+            &r.path,
+            "array `t` does not match the round's steps; score the round again",
+        ));
     }
-    let nb = r.src.array("neighbours").map_err(|e| store_err(&r.path, e))?;
-    let k = nb.as_ref().and_then(|a| a.shape.get(1).copied()).unwrap_or(0);
+    let nb = r
+        .src
+        .array("neighbours")
+        .map_err(|e| store_err(&r.path, e))?;
+    let k = nb
+        .as_ref()
+        .and_then(|a| a.shape.get(1).copied())
+        .unwrap_or(0);
     Ok(RoundScores {
         state_dim: d as usize,
         action_dim: a as usize,
         k: k as usize,
         novelty: r.f32s("novelty", &[n])?,
         p_value: r.f32s("p_value", &[n])?,
-        flagged: r.floats("flagged", &[n])?.into_iter().map(|x| x != 0.0).collect(),
+        flagged: r
+            .floats("flagged", &[n])?
+            .into_iter()
+            .map(|x| x != 0.0)
+            .collect(),
         contributions: r.f32s("contributions", &[n, d])?,
         action_gap: r.f32s("action_gap", &[n])?,
         neighbour_action: r.f32s("neighbour_action", &[n, a])?,
         neighbour_spread: r.f32s("neighbour_spread", &[n])?,
         ensemble_spread: r.f32s("ensemble_spread", &[n])?,
-        neighbours: r.floats("neighbours", &[n, k])?.into_iter().map(|x| x as u32).collect(),
+        neighbours: r
+            .floats("neighbours", &[n, k])?
+            .into_iter()
+            .map(|x| x as u32)
+            .collect(),
         threshold: r.f32s("threshold", &[1])?[0],
         alpha: r.floats("alpha", &[1])?[0],
         scale: r.f32s("scale", &[d])?,

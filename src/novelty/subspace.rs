@@ -108,7 +108,12 @@ impl Subspace {
             exact.retain(|h| h.1 <= upper * (1.0 + 1e-5));
             exact.sort_by(|a, b| a.1.total_cmp(&b.1));
         }
-        out.extend(exact.iter().take(k).map(|&(i, d)| (self.rows[i as usize], d)));
+        out.extend(
+            exact
+                .iter()
+                .take(k)
+                .map(|&(i, d)| (self.rows[i as usize], d)),
+        );
     }
 }
 

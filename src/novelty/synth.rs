@@ -9,8 +9,8 @@
 use std::path::PathBuf;
 
 use crate::campaign::{
-    ActionChannel, Campaign, CampaignFile, ChannelKind, Episode, Feature, NoveltySettings,
-    Round, Spec, StepTable,
+    ActionChannel, Campaign, CampaignFile, ChannelKind, Episode, Feature, NoveltySettings, Round,
+    Spec, StepTable,
 };
 
 /// SplitMix64 (Steele, Lea & Flood 2014): a small, seedable, platform-independent generator.
@@ -92,7 +92,9 @@ pub fn drift_onset(len: usize) -> usize {
 pub fn trajectories(s: &SynthSpec) -> StepTable {
     let mut mix_rng = Rng::new(0x5eed);
     let mix: Vec<f64> = (0..s.dim * s.latent).map(|_| mix_rng.normal()).collect();
-    let act: Vec<f64> = (0..s.action_dim * s.dim).map(|_| mix_rng.normal()).collect();
+    let act: Vec<f64> = (0..s.action_dim * s.dim)
+        .map(|_| mix_rng.normal())
+        .collect();
     let dir: Vec<f64> = (0..s.dim).map(|_| mix_rng.normal()).collect();
     let dir_norm = dir.iter().map(|x| x * x).sum::<f64>().sqrt();
     let mut rng = Rng::new(s.seed);
@@ -100,8 +102,12 @@ pub fn trajectories(s: &SynthSpec) -> StepTable {
     t.states.reserve(s.episodes * s.len * s.dim);
     for e in 0..s.episodes {
         let start = t.len();
-        let freq: Vec<f64> = (0..s.latent * 2).map(|_| 0.002 + 0.02 * rng.uniform()).collect();
-        let phase: Vec<f64> = (0..s.latent * 2).map(|_| std::f64::consts::TAU * rng.uniform()).collect();
+        let freq: Vec<f64> = (0..s.latent * 2)
+            .map(|_| 0.002 + 0.02 * rng.uniform())
+            .collect();
+        let phase: Vec<f64> = (0..s.latent * 2)
+            .map(|_| std::f64::consts::TAU * rng.uniform())
+            .collect();
         let mut walk = vec![0.0f64; s.latent];
         let mut vel = vec![0.0f64; s.latent];
         let mut z = vec![0.0f64; s.latent];

@@ -97,7 +97,11 @@ fn push_run(
         return;
     }
     let peak = (onset..=end)
-        .max_by(|&a, &b| scores.novelty[a].total_cmp(&scores.novelty[b]).then(b.cmp(&a)))
+        .max_by(|&a, &b| {
+            scores.novelty[a]
+                .total_cmp(&scores.novelty[b])
+                .then(b.cmp(&a))
+        })
         .unwrap_or(onset);
     out.push(Excursion {
         episode,
@@ -133,7 +137,9 @@ mod tests {
     #[test]
     fn one_noisy_step_neither_splits_nor_creates_an_excursion() {
         // rows:      0    1     2     3     4     5     6     7    8    9     10
-        let p = [0.5, 0.01, 0.02, 0.08, 0.01, 0.001, 0.04, 0.5, 0.5, 0.01, 0.5];
+        let p = [
+            0.5, 0.01, 0.02, 0.08, 0.01, 0.001, 0.04, 0.5, 0.5, 0.01, 0.5,
+        ];
         let (t, s) = case(&p);
         let ex = excursions(&t, &s, &ExcursionSettings::default());
         // Row 3 (0.08 <= 2 * 0.05) keeps the run open; row 9 alone is too short.

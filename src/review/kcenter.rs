@@ -122,7 +122,11 @@ pub fn greedy_k_center(
         let Some(i) = cover.farthest() else { break };
         cover.pick(i);
         picks.push(i);
-        radii.push((0..cover.len()).map(|j| cover.distance(j)).fold(0.0, f32::max));
+        radii.push(
+            (0..cover.len())
+                .map(|j| cover.distance(j))
+                .fold(0.0, f32::max),
+        );
     }
     (picks, radii)
 }

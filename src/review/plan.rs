@@ -189,7 +189,9 @@ fn candidate_reasons(
         .collect();
     let cap = s.pool_factor.max(1) * s.budget.max(1);
     if gaps.len() > cap {
-        gaps.select_nth_unstable_by(cap, |&a, &b| scores.action_gap[b].total_cmp(&scores.action_gap[a]));
+        gaps.select_nth_unstable_by(cap, |&a, &b| {
+            scores.action_gap[b].total_cmp(&scores.action_gap[a])
+        });
         gaps.truncate(cap);
     }
     for r in gaps {
@@ -207,7 +209,11 @@ impl Planner {
                 reasons.sort_unstable();
                 reasons.dedup();
                 let priority = priority(&reasons, scores.novelty[row], scores.threshold);
-                Candidate { row, reasons, priority }
+                Candidate {
+                    row,
+                    reasons,
+                    priority,
+                }
             })
             .collect();
         let candidates = pool.len();
@@ -217,14 +223,32 @@ impl Planner {
         let dim = steps.state_dim;
         let mut points = Vec::with_capacity(pool.len() * dim);
         for c in &pool {
-            points.extend(steps.state(c.row).iter().zip(&inv_scale).map(|(x, i)| x * i));
+            points.extend(
+                steps
+                    .state(c.row)
+                    .iter()
+                    .zip(&inv_scale)
+                    .map(|(x, i)| x * i),
+            );
         }
-        Planner { pool, points, dim, inv_scale, candidates, settings: settings.clone() }
+        Planner {
+            pool,
+            points,
+            dim,
+            inv_scale,
+            candidates,
+            settings: settings.clone(),
+        }
     }
 
     /// Chooses the list given the raw (unscaled, row-major) states that already have
     /// corrections.
-    pub fn plan(&self, steps: &StepTable, scores: &RoundScores, corrected_states: &[f32]) -> ReviewList {
+    pub fn plan(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        corrected_states: &[f32],
+    ) -> ReviewList {
         let mut cover = Cover::new(&self.points, self.dim);
         let mut scaled = vec![0.0f32; self.dim];
         for c in corrected_states.chunks_exact(self.dim.max(1)) {
@@ -265,7 +289,13 @@ impl Planner {
         }
     }
 
-    fn entry(&self, steps: &StepTable, scores: &RoundScores, i: usize, distance: f32) -> ReviewEntry {
+    fn entry(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        i: usize,
+        distance: f32,
+    ) -> ReviewEntry {
         let c = &self.pool[i];
         ReviewEntry {
             row: c.row,
@@ -294,5 +324,7 @@ pub fn plan(
 /// Raw states of some rows of a table, row-major: the `corrected_states` argument of
 /// [`plan`] for corrections made on this round's steps.
 pub fn states_of_rows(steps: &StepTable, rows: &[usize]) -> Vec<f32> {
-    rows.iter().flat_map(|&r| steps.state(r).iter().copied()).collect()
+    rows.iter()
+        .flat_map(|&r| steps.state(r).iter().copied())
+        .collect()
 }

@@ -25,11 +25,19 @@ pub fn review_list_path(root: &Path, round: u32) -> PathBuf {
 }
 
 fn finite(x: f32) -> serde_json::Value {
-    if x.is_finite() { json!(x) } else { serde_json::Value::Null }
+    if x.is_finite() {
+        json!(x)
+    } else {
+        serde_json::Value::Null
+    }
 }
 
 /// Writes the list as JSON Lines to any writer.
-pub fn write_review_list<W: Write>(steps: &StepTable, list: &ReviewList, mut w: W) -> std::io::Result<()> {
+pub fn write_review_list<W: Write>(
+    steps: &StepTable,
+    list: &ReviewList,
+    mut w: W,
+) -> std::io::Result<()> {
     for (i, e) in list.entries.iter().enumerate() {
         let line = json!({
             "rank": i + 1,
@@ -49,7 +57,12 @@ pub fn write_review_list<W: Write>(steps: &StepTable, list: &ReviewList, mut w: 
 }
 
 /// Saves a round's review list and returns the path.
-pub fn save_review_list(root: &Path, round: u32, steps: &StepTable, list: &ReviewList) -> Result<PathBuf, NoveltyError> {
+pub fn save_review_list(
+    root: &Path,
+    round: u32,
+    steps: &StepTable,
+    list: &ReviewList,
+) -> Result<PathBuf, NoveltyError> {
     let path = review_list_path(root, round);
     write_atomic(&path, |w| write_review_list(steps, list, w))?;
     Ok(path)
