@@ -6,9 +6,10 @@
 //! learner's last decisions), or its action gap is at least `action_gap_min` (at most
 //! `pool_factor * budget` of those, largest first).
 //!
-//! **Priority.** `priority = sum of the reasons' weights + min(novelty / threshold, 4) / 4`,
-//! with weights onset 1.0, before intervention 0.8, peak 0.5, action gap 0.4: onsets first,
-//! then the moments before a takeover, and among equals the more novel step.
+//! **Priority.** `priority = sum of the reasons' weights + 0.25 * min(novelty / threshold, 4) / 4`,
+//! with weights onset 1.0, before intervention 0.7, peak 0.4, action gap 0.3: an onset outranks
+//! any single other reason however novel, then come the moments before a takeover, and among
+//! equals the more novel step.
 //!
 //! **Diversity.** The `pool_factor * budget` highest-priority candidates enter a greedy
 //! k-center selection in scaled state space ([`super::kcenter`]) seeded with the states that
@@ -16,8 +17,9 @@
 //! each later pick is the candidate farthest from every correction and earlier pick. A pick
 //! removes every candidate of the same episode less than `min_gap` steps away. Selection stops
 //! at the budget, when no candidate is left, or when the farthest candidate is no more than
-//! `min_distance` from a correction or pick. Entries are listed in pick order, so any prefix
-//! of the list is itself a diverse selection.
+//! `min_distance` from a correction or pick. The chosen entries are listed by priority
+//! (highest first); each keeps its pick order in [`ReviewEntry::pick`], and the first picks
+//! of that order are themselves a diverse selection.
 //!
 //! **Re-planning.** [`Planner::new`] does the work that depends on the scores only (`O(n)` in
 //! the round's steps plus sorting the candidates). [`Planner::plan`] then costs
@@ -49,9 +51,9 @@ impl Reason {
     pub fn weight(self) -> f32 {
         match self {
             Reason::ExcursionOnset => 1.0,
-            Reason::BeforeIntervention => 0.8,
-            Reason::ExcursionPeak => 0.5,
-            Reason::ActionGap => 0.4,
+            Reason::BeforeIntervention => 0.7,
+            Reason::ExcursionPeak => 0.4,
+            Reason::ActionGap => 0.3,
         }
     }
 
@@ -92,7 +94,7 @@ impl Default for PlanSettings {
             min_gap: 10,
             pre_intervention: 10,
             action_gap_min: 0.25,
-            pool_factor: 4,
+            pool_factor: 8,
             min_distance: 0.0,
             excursion: ExcursionSettings::default(),
         }
@@ -102,6 +104,8 @@ impl Default for PlanSettings {
 /// One step on the review list.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ReviewEntry {
+    /// When the diversity selection picked it (0 first).
+    pub pick: usize,
     /// Row of the round's step table.
     pub row: usize,
     /// Episode index.
@@ -126,7 +130,7 @@ pub struct ReviewEntry {
 /// The review list.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct ReviewList {
-    /// Entries in pick order.
+    /// Entries by priority, highest first (ties by row).
     pub entries: Vec<ReviewEntry>,
     /// Largest distance from a remaining pool candidate to its nearest correction or entry.
     pub covering_radius: f32,
@@ -156,7 +160,7 @@ pub struct Planner {
 
 fn priority(reasons: &[Reason], novelty: f32, threshold: f32) -> f32 {
     let ratio = if threshold.is_finite() && threshold > 0.0 {
-        (novelty / threshold).clamp(0.0, 4.0) / 4.0
+        0.25 * (novelty / threshold).clamp(0.0, 4.0) / 4.0
     } else {
         0.0
     };
@@ -266,8 +270,9 @@ impl Planner {
             }
             cover.pick(i);
             self.drop_near(&mut cover, steps, i);
-            entries.push(self.entry(steps, scores, i, distance));
+            entries.push(self.entry(steps, scores, i, distance, entries.len()));
         }
+        entries.sort_by(|a, b| b.priority.total_cmp(&a.priority).then(a.row.cmp(&b.row)));
         ReviewList {
             entries,
             covering_radius: cover.radius(),
@@ -295,9 +300,11 @@ impl Planner {
         scores: &RoundScores,
         i: usize,
         distance: f32,
+        pick: usize,
     ) -> ReviewEntry {
         let c = &self.pool[i];
         ReviewEntry {
+            pick,
             row: c.row,
             episode: steps.episode_of(c.row),
             t: steps.t[c.row],

@@ -1,8 +1,9 @@
 //! Saved review lists: `analysis/<round>/review-list.jsonl` in the campaign folder.
 //!
-//! One JSON object per line, in pick order: `{"rank": 1, "episode": "...", "t": 12,
+//! One JSON object per line, by priority: `{"rank": 1, "pick": 4, "episode": "...", "t": 12,
 //! "reasons": ["onset", "peak"], "priority": 1.73, "novelty": 2.41, "p_value": 0.0012,
-//! "action_gap": 0.31, "distance": 3.2}`. `distance` is the scaled distance to the nearest
+//! "action_gap": 0.31, "distance": 3.2}`. `pick` is the order of the diversity selection;
+//! `distance` is the scaled distance to the nearest
 //! correction or earlier entry when the entry was picked (`null` for a first pick with no
 //! correction). Planning again replaces the file (written beside it, then renamed).
 
@@ -41,6 +42,7 @@ pub fn write_review_list<W: Write>(
     for (i, e) in list.entries.iter().enumerate() {
         let line = json!({
             "rank": i + 1,
+            "pick": e.pick,
             "episode": steps.episodes[e.episode].name,
             "t": e.t,
             "reasons": e.reasons.iter().map(|r| r.as_str()).collect::<Vec<_>>(),
