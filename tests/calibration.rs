@@ -1,6 +1,8 @@
 //! The calibration keeps its promise on fresh expert episodes, and excursion onsets are found
 //! where learner episodes leave expert territory.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use countersteer::novelty::synth::{SynthSpec, campaign, drift_onset, trajectories};
 use countersteer::novelty::{build_model, score_round};
 use countersteer::progress::Progress;

@@ -1,5 +1,7 @@
 //! `countersteer score` and `countersteer plan` on a small campaign folder.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use std::path::Path;
 use std::process::Command;
 

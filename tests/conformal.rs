@@ -1,5 +1,7 @@
 //! Conformal p-values and thresholds checked against numpy.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use countersteer::novelty::Conformal;
 
 #[derive(serde::Deserialize)]

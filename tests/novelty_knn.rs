@@ -1,5 +1,7 @@
 //! k-nearest-neighbour search checked against a brute-force oracle and against scipy.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use countersteer::novelty::index::{KnnIndex, MAX_TREE_DIM};
 use countersteer::novelty::query::{brute_knn, knn_rows};
 use countersteer::novelty::synth::{Rng, SynthSpec, trajectories};

@@ -1,5 +1,7 @@
 //! The review list: budget, minimum gap, no re-asking near corrections, and the saved files.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use countersteer::campaign::StepTable;
 use countersteer::novelty::store::{load_scores, save_scores};
 use countersteer::novelty::synth::{SynthSpec, campaign, trajectories};
@@ -22,7 +24,7 @@ fn scored() -> (StepTable, RoundScores) {
     let mut steps = trajectories(&learner);
     // The expert takes over from step 100 of every other episode.
     steps.interventions = (0..steps.len())
-        .map(|r| steps.episode_of(r) % 2 == 0 && steps.t[r] >= 100)
+        .map(|r| steps.episode_of(r).is_multiple_of(2) && steps.t[r] >= 100)
         .collect();
     let c = campaign(demos, steps, 5, 0.05);
     let p = Progress::new();

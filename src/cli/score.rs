@@ -1,6 +1,6 @@
 //! `countersteer score DIR --round N`: score every step of a round and save the signals.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use clap::Args;
 
@@ -25,7 +25,7 @@ pub struct ScoreArgs {
 }
 
 /// Loads a campaign with a progress bar.
-pub fn load(dir: &PathBuf) -> Result<Campaign, CliError> {
+pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     let dir = campaign_dir(dir)?;
     let progress = Progress::new();
     let _bar = Bar::follow(&progress);

@@ -131,7 +131,7 @@ pub fn build_model_from(
         "calibrating",
         progress,
     )?;
-    let novelties: Vec<f32> = hits.chunks_exact(k).map(|h| kth_distance(h)).collect();
+    let novelties: Vec<f32> = hits.chunks_exact(k).map(kth_distance).collect();
     drop(fit);
     let all: Vec<u32> = (0..demos.len() as u32).collect();
     progress.stage("indexing", 1);
