@@ -9,7 +9,9 @@ pub mod cli;
 pub mod consensus;
 pub mod export;
 pub mod ledger;
+pub mod novelty;
 pub mod progress;
+pub mod review;
 
 /// The safety caution carried by the README, the desktop program and every export manifest.
 pub const SAFETY_CAUTION: &str = "Robots and vehicles can hurt people. Corrected data does not \

@@ -4,7 +4,9 @@
 mod check;
 mod correct;
 mod export;
+mod plan;
 mod progress_bar;
+mod score;
 mod tally;
 
 use std::path::{Path, PathBuf};
@@ -38,6 +40,10 @@ pub enum Command {
     Tally(tally::TallyArgs),
     /// Write the merged training set (demonstrations + consensus corrections) and its manifest.
     Export(export::ExportArgs),
+    /// Score every step of a round against the demonstrations and save the signals.
+    Score(score::ScoreArgs),
+    /// Choose the steps of a round the expert should review, under a budget.
+    Plan(plan::PlanArgs),
 }
 
 /// Parses the arguments and runs the program.
@@ -51,6 +57,8 @@ pub fn main() -> ExitCode {
         Some(Command::Correct(a)) => correct::run(a),
         Some(Command::Tally(a)) => tally::run(a),
         Some(Command::Export(a)) => export::run(a),
+        Some(Command::Score(a)) => score::run(a),
+        Some(Command::Plan(a)) => plan::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

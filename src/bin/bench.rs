@@ -1,0 +1,387 @@
+//! Benchmark of novelty scoring and review planning on synthetic smooth trajectories, each
+//! figure beside a baseline measured in the same run. Run in release:
+//!
+//! ```text
+//! cargo run --release --bin bench -- [--runs 3] [--only w1,w2,w3,plan] [--npy DIR]
+//! ```
+//!
+//! * W1: 1M demonstration states, 100k rollout steps, D = 16: build + calibrate + score.
+//!   Baselines: plain (unseeded) per-step kiddo queries; brute force on a subset.
+//! * W2: 1M x 1M k-NN at D = 16, seeded queries vs. plain queries. With `--npy DIR` the scaled
+//!   data is written as .npy and `python3 bench/scipy_knn.py DIR` times scipy's cKDTree on it.
+//! * W3: D = 64, 200k demonstrations, 100k steps: the principal-subspace path, with its
+//!   accuracy against brute force.
+//! * plan: a 500-step review list from 1M scored steps; baseline: k-center over every candidate.
+//!
+//! Timings are medians of `--runs` runs. Peak memory is the process's resident high-water
+//! mark (reset per stage through /proc/self/clear_refs on Linux).
+
+use std::time::Instant;
+
+use countersteer::campaign::StepTable;
+use countersteer::novelty::index::KnnIndex;
+use countersteer::novelty::model::build_model_from;
+use countersteer::novelty::query::{brute_knn, knn_rows};
+use countersteer::novelty::scale::robust_scale;
+use countersteer::novelty::score_steps;
+use countersteer::novelty::synth::{SynthSpec, spec, trajectories};
+use countersteer::progress::Progress;
+use countersteer::review::{PlanSettings, Planner, states_of_rows};
+
+const K: usize = 5;
+const ALPHA: f64 = 0.05;
+
+struct Args {
+    runs: usize,
+    only: Vec<String>,
+    npy: Option<std::path::PathBuf>,
+}
+
+fn args() -> Args {
+    let mut a = Args {
+        runs: 3,
+        only: Vec::new(),
+        npy: None,
+    };
+    let mut it = std::env::args().skip(1);
+    while let Some(x) = it.next() {
+        match x.as_str() {
+            "--runs" => a.runs = it.next().and_then(|v| v.parse().ok()).unwrap_or(3),
+            "--only" => {
+                a.only = it
+                    .next()
+                    .unwrap_or_default()
+                    .split(',')
+                    .map(String::from)
+                    .collect()
+            }
+            "--npy" => a.npy = it.next().map(Into::into),
+            _ => eprintln!("ignored argument {x}"),
+        }
+    }
+    a
+}
+
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v[v.len() / 2]
+}
+
+fn time<T>(f: impl FnOnce() -> T) -> (T, f64) {
+    let t = Instant::now();
+    let out = f();
+    (out, t.elapsed().as_secs_f64())
+}
+
+fn status_kb(key: &str) -> f64 {
+    let s = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
+    s.lines()
+        .find(|l| l.starts_with(key))
+        .and_then(|l| l.split_whitespace().nth(1))
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(f64::NAN)
+}
+
+fn reset_peak() -> f64 {
+    let _ = std::fs::write("/proc/self/clear_refs", "5");
+    status_kb("VmRSS:")
+}
+
+fn mb(kb: f64) -> f64 {
+    kb / 1024.0
+}
+
+fn scales(t: &StepTable) -> Vec<f32> {
+    (0..t.state_dim)
+        .map(|j| robust_scale(t, j) as f32)
+        .collect()
+}
+
+fn rollouts(episodes: usize, dim: usize, seed: u64) -> StepTable {
+    let mut s = SynthSpec::expert(episodes, 500, dim, seed);
+    s.drift = 0.01;
+    s.prefix = "roll".into();
+    trajectories(&s)
+}
+
+fn all_rows(t: &StepTable) -> Vec<usize> {
+    (0..t.len()).collect()
+}
+
+fn brute_per_query(demos: &StepTable, inv: &[f32], queries: &StepTable, n: usize) -> f64 {
+    let stride = (queries.len() / n).max(1);
+    let (_, secs) = time(|| {
+        (0..queries.len()).step_by(stride).take(n).for_each(|r| {
+            let q: Vec<f32> = queries
+                .state(r)
+                .iter()
+                .zip(inv)
+                .map(|(x, i)| x * i)
+                .collect();
+            std::hint::black_box(brute_knn(&demos.states, demos.state_dim, inv, &q, K));
+        })
+    });
+    secs / n as f64
+}
+
+fn w1(a: &Args) {
+    println!("\n== W1: 1M demonstration states, 100k rollout steps, D = 16, k = {K}");
+    let demos = trajectories(&SynthSpec::expert(2000, 500, 16, 1));
+    let steps = rollouts(200, 16, 2);
+    let channels = spec(16, 2).actions;
+    let p = Progress::new();
+    let (mut build, mut score, mut plain) = (vec![], vec![], vec![]);
+    let mut peak = 0.0f64;
+    for _ in 0..a.runs {
+        let before = reset_peak();
+        let (model, b) =
+            time(|| build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model"));
+        let (_scores, s) =
+            time(|| score_steps(&model, &demos, &channels, &steps, &p).expect("score"));
+        peak = peak.max(status_kb("VmHWM:") - before);
+        let (_h, q) = time(|| {
+            knn_rows(
+                model.index(),
+                model.inv_scale(),
+                &steps,
+                &all_rows(&steps),
+                K,
+                false,
+                "",
+                &p,
+            )
+        });
+        build.push(b);
+        score.push(s);
+        plain.push(q);
+    }
+    let (b, s, q) = (median(build), median(score), median(plain));
+    let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
+    let brute = brute_per_query(&demos, model.inv_scale(), &steps, 100);
+    let raw = (demos.states.len() + steps.states.len()) as f64 * 4.0 / 1e6;
+    println!(
+        "index build + calibration   {b:8.3} s  ({} calibration states)",
+        model.conformal().len()
+    );
+    println!("scoring 100k steps (seeded) {s:8.3} s  (all signals)");
+    println!(
+        "end to end                  {:8.3} s  target < 3 s: {}",
+        b + s,
+        verdict(b + s < 3.0)
+    );
+    println!(
+        "baseline plain queries      {q:8.3} s  for the same 100k steps (k-NN only); seeded scoring is {:.1}x faster",
+        q / s
+    );
+    println!("baseline plain end to end   {:8.3} s", b + q);
+    println!(
+        "baseline brute force        {:8.3} s  estimated for 100k steps ({:.0} us/query, 1 thread)",
+        brute * 1e5,
+        brute * 1e6
+    );
+    println!(
+        "peak memory above start     {:8.1} MB (raw f32 states {raw:.1} MB)",
+        mb(peak)
+    );
+}
+
+fn verdict(ok: bool) -> &'static str {
+    if ok { "met" } else { "NOT met" }
+}
+
+fn w2(a: &Args) {
+    println!("\n== W2: 1M x 1M k-NN, D = 16, k = {K}");
+    let demos = trajectories(&SynthSpec::expert(2000, 500, 16, 1));
+    let queries = rollouts(2000, 16, 3);
+    let p = Progress::new();
+    let inv: Vec<f32> = scales(&demos).iter().map(|s| 1.0 / s).collect();
+    let ids: Vec<u32> = (0..demos.len() as u32).collect();
+    let (index, build) = time(|| KnnIndex::build(&demos.states, 16, &inv, &ids).expect("index"));
+    let rows = all_rows(&queries);
+    let sub: Vec<usize> = rows.iter().copied().take(100_000).collect();
+    let (mut seeded, mut plain) = (vec![], vec![]);
+    let mut mean_kth = 0.0f64;
+    for _ in 0..a.runs {
+        let (hits, t) =
+            time(|| knn_rows(&index, &inv, &queries, &rows, K, true, "", &p).expect("knn"));
+        seeded.push(t);
+        mean_kth = hits
+            .chunks_exact(K)
+            .map(|h| f64::from(h[K - 1].1).sqrt())
+            .sum::<f64>()
+            / rows.len() as f64;
+        plain.push(time(|| knn_rows(&index, &inv, &queries, &sub, K, false, "", &p)).1);
+    }
+    let s = rows.len() as f64 / median(seeded);
+    let q = sub.len() as f64 / median(plain);
+    println!("index build                 {build:8.3} s");
+    println!(
+        "seeded queries              {s:10.0} queries/s ({:.2} us/query)",
+        1e6 / s
+    );
+    println!(
+        "baseline plain queries      {q:10.0} queries/s ({:.2} us/query, first 100k)",
+        1e6 / q
+    );
+    println!("seeded / plain              {:8.2}x", s / q);
+    println!(
+        "mean k-th distance          {mean_kth:.6} (compare with the scipy script's last line)"
+    );
+    if let Some(dir) = &a.npy {
+        write_npy(dir, &demos, &queries, &inv, s);
+        println!(
+            "wrote {} ; run: python3 bench/scipy_knn.py {}",
+            dir.display(),
+            dir.display()
+        );
+    }
+}
+
+fn write_npy(dir: &std::path::Path, demos: &StepTable, queries: &StepTable, inv: &[f32], qps: f64) {
+    use npyz::WriterBuilder;
+    let _ = std::fs::create_dir_all(dir);
+    for (name, t) in [("demos", demos), ("queries", queries)] {
+        let f = std::fs::File::create(dir.join(format!("{name}.npy"))).expect("create npy");
+        let mut w = npyz::WriteOptions::new()
+            .default_dtype()
+            .shape(&[t.len() as u64, t.state_dim as u64])
+            .writer(std::io::BufWriter::new(f))
+            .begin_nd()
+            .expect("npy");
+        let scaled = t
+            .states
+            .chunks_exact(t.state_dim)
+            .flat_map(|s| s.iter().zip(inv).map(|(x, i)| x * i));
+        w.extend(scaled).expect("write npy");
+        w.finish().expect("finish npy");
+    }
+    let _ = std::fs::write(
+        dir.join("countersteer.json"),
+        format!("{{\"queries_per_second\": {qps}, \"k\": {K}}}\n"),
+    );
+}
+
+fn w3(a: &Args) {
+    println!("\n== W3: D = 64, 200k demonstration states, 100k steps, k = {K}");
+    let demos = trajectories(&SynthSpec::expert(400, 500, 64, 1));
+    let steps = rollouts(200, 64, 2);
+    let channels = spec(64, 2).actions;
+    let p = Progress::new();
+    let mut totals = vec![];
+    for _ in 0..a.runs {
+        let (_, t) = time(|| {
+            let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
+            score_steps(&model, &demos, &channels, &steps, &p).expect("score")
+        });
+        totals.push(t);
+    }
+    let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
+    let scores = score_steps(&model, &demos, &channels, &steps, &p).expect("score");
+    let inv = model.inv_scale();
+    let (mut worst, mut n) = (0.0f64, 0);
+    let (_, brute) = time(|| {
+        for r in (0..steps.len()).step_by(steps.len() / 200) {
+            let q: Vec<f32> = steps.state(r).iter().zip(inv).map(|(x, i)| x * i).collect();
+            let exact = brute_knn(&demos.states, 64, inv, &q, K)[K - 1].1.sqrt();
+            let rel = (f64::from(scores.novelty[r]) - f64::from(exact)).abs()
+                / f64::from(exact).max(1e-12);
+            worst = worst.max(rel);
+            n += 1;
+        }
+    });
+    let t = median(totals);
+    println!("search path                 {}", model.index().path());
+    println!(
+        "build + calibrate + score   {t:8.3} s  target < 10 s: {}",
+        verdict(t < 10.0)
+    );
+    println!(
+        "accuracy vs brute force     max relative error of the k-th distance {worst:.2e} over {n} steps"
+    );
+    println!(
+        "baseline brute force        {:8.3} s  estimated for 100k steps ({:.0} us/query, 1 thread)",
+        brute / n as f64 * 1e5,
+        brute / n as f64 * 1e6
+    );
+}
+
+fn plan_bench(a: &Args) {
+    println!("\n== plan: 500-step review list from 1M scored steps (D = 16)");
+    let demos = trajectories(&SynthSpec::expert(400, 500, 16, 1));
+    let steps = rollouts(2000, 16, 4);
+    let channels = spec(16, 2).actions;
+    let p = Progress::new();
+    let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
+    let scores = score_steps(&model, &demos, &channels, &steps, &p).expect("score");
+    let settings = PlanSettings {
+        budget: 500,
+        ..Default::default()
+    };
+    let all = PlanSettings {
+        pool_factor: usize::MAX / 1024,
+        ..settings.clone()
+    };
+    let (mut first, mut again, mut base) = (vec![], vec![], vec![]);
+    let mut peak = 0.0f64;
+    let mut last = None;
+    for _ in 0..a.runs {
+        let before = reset_peak();
+        let ((planner, list), t) = time(|| {
+            let planner = Planner::new(&steps, &scores, &settings);
+            let list = planner.plan(&steps, &scores, &[]);
+            (planner, list)
+        });
+        peak = peak.max(status_kb("VmHWM:") - before);
+        let corrected: Vec<usize> = list.entries.iter().take(100).map(|e| e.row).collect();
+        let states = states_of_rows(&steps, &corrected);
+        let (_, t2) = time(|| planner.plan(&steps, &scores, &states));
+        let (_, t3) = time(|| Planner::new(&steps, &scores, &all).plan(&steps, &scores, &[]));
+        first.push(t);
+        again.push(t2);
+        base.push(t3);
+        last = Some(list);
+    }
+    let raw = (steps.states.len() + steps.actions.len()) as f64 * 4.0 / 1e6;
+    let list = last.unwrap_or_default();
+    let t = median(first);
+    println!(
+        "candidates / pool / entries {} / {} / {}",
+        list.candidates,
+        list.pool,
+        list.entries.len()
+    );
+    println!(
+        "plan from scores            {:8.1} ms target < 1 s: {}",
+        t * 1e3,
+        verdict(t < 1.0)
+    );
+    println!("re-plan with 100 corrections{:8.1} ms", median(again) * 1e3);
+    println!("baseline k-center, no pool  {:8.1} ms", median(base) * 1e3);
+    println!(
+        "peak memory of planning     {:8.1} MB (raw f32 step data {raw:.1} MB): target < 2x: {}",
+        mb(peak),
+        verdict(mb(peak) < 2.0 * raw)
+    );
+}
+
+fn main() {
+    let a = args();
+    let want = |s: &str| a.only.is_empty() || a.only.iter().any(|o| o == s);
+    println!(
+        "countersteer bench: {} run(s) per figure, {} threads",
+        a.runs,
+        rayon::current_num_threads()
+    );
+    if want("w1") {
+        w1(&a);
+    }
+    if want("w2") {
+        w2(&a);
+    }
+    if want("w3") {
+        w3(&a);
+    }
+    if want("plan") {
+        plan_bench(&a);
+    }
+}

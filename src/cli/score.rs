@@ -1,0 +1,183 @@
+//! `countersteer score DIR --round N`: score every step of a round and save the signals.
+
+use std::path::{Path, PathBuf};
+
+use clap::Args;
+
+use super::{CliError, campaign_dir, progress_bar::Bar};
+use crate::campaign::{Campaign, LoadOptions, load_campaign};
+use crate::novelty::store::save_scores;
+use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
+use crate::progress::Progress;
+use crate::review::{ExcursionSettings, excursions};
+
+/// Arguments of `score`.
+#[derive(Debug, Args)]
+pub struct ScoreArgs {
+    /// Campaign folder (holds campaign.json).
+    pub dir: PathBuf,
+    /// Round number (its folder under rounds/).
+    #[arg(long)]
+    pub round: u32,
+    /// Episodes listed in the summary.
+    #[arg(long, default_value_t = 5)]
+    pub worst: usize,
+}
+
+/// Loads a campaign with a progress bar.
+pub fn load(dir: &Path) -> Result<Campaign, CliError> {
+    let dir = campaign_dir(dir)?;
+    let progress = Progress::new();
+    let _bar = Bar::follow(&progress);
+    load_campaign(&dir, &LoadOptions::default(), &progress).map_err(|e| {
+        CliError::invalid(format!(
+            "{e}\n(run `countersteer check {}` for every problem)",
+            dir.display()
+        ))
+    })
+}
+
+/// Builds the model and scores one round, with a progress bar.
+pub fn build_and_score(c: &Campaign, round: u32) -> Result<(NoveltyModel, RoundScores), CliError> {
+    let r = c.round(round).ok_or_else(|| {
+        let have: Vec<String> = c.rounds.iter().map(|r| r.number.to_string()).collect();
+        CliError::usage(format!(
+            "no round {round} in rounds/ (found: {})",
+            have.join(", ")
+        ))
+    })?;
+    let progress = Progress::new();
+    let _bar = Bar::follow(&progress);
+    let err = |e: NoveltyError| CliError::invalid(e.to_string());
+    let model = build_model(c, &progress).map_err(err)?;
+    let scores = score_round(&model, c, &r.steps, &progress).map_err(err)?;
+    Ok((model, scores))
+}
+
+/// Runs `score`.
+pub fn run(a: ScoreArgs) -> Result<(), CliError> {
+    let c = load(&a.dir)?;
+    let (model, scores) = build_and_score(&c, a.round)?;
+    let steps = &c
+        .round(a.round)
+        .ok_or_else(|| CliError::usage("round vanished"))?
+        .steps;
+    let path = save_scores(&c.root, a.round, steps, &scores)
+        .map_err(|e| CliError::invalid(e.to_string()))?;
+    print_summary(&c, &model, steps, &scores, a.worst);
+    println!("wrote {}", path.display());
+    Ok(())
+}
+
+fn print_summary(
+    c: &Campaign,
+    model: &NoveltyModel,
+    steps: &crate::campaign::StepTable,
+    s: &RoundScores,
+    worst: usize,
+) {
+    let n = s.len();
+    let flagged = s.flagged_count();
+    let split = model.split();
+    println!(
+        "round scored against {} demonstration states ({})",
+        c.demonstrations.len(),
+        model.index().path()
+    );
+    println!(
+        "  calibration: {} held-out episodes, {} states; k = {}, alpha = {}",
+        split.calibration.len(),
+        model.conformal().len(),
+        model.k(),
+        model.alpha()
+    );
+    println!(
+        "  flag threshold: novelty > {:.4} (scaled units)",
+        s.threshold
+    );
+    println!(
+        "  steps: {n}, flagged: {flagged} ({:.1}%)",
+        100.0 * flagged as f64 / n.max(1) as f64
+    );
+    let ex = excursions(steps, s, &ExcursionSettings::default());
+    println!(
+        "  excursions: {} in {} of {} episodes",
+        ex.len(),
+        count_episodes(&ex),
+        steps.episodes.len()
+    );
+    print_features(c, s);
+    print_worst(steps, s, &ex, worst);
+}
+
+fn count_episodes(ex: &[crate::review::Excursion]) -> usize {
+    let mut e: Vec<usize> = ex.iter().map(|x| x.episode).collect();
+    e.dedup();
+    e.len()
+}
+
+fn print_features(c: &Campaign, s: &RoundScores) {
+    let d = s.state_dim;
+    let mut total = vec![0.0f64; d];
+    for row in (0..s.len()).filter(|&r| s.flagged[r]) {
+        for (t, v) in total.iter_mut().zip(s.contribution(row)) {
+            *t += f64::from(*v);
+        }
+    }
+    let sum: f64 = total.iter().sum();
+    if sum <= 0.0 {
+        return;
+    }
+    let mut order: Vec<usize> = (0..d).collect();
+    order.sort_by(|&a, &b| total[b].total_cmp(&total[a]));
+    let top: Vec<String> = order
+        .iter()
+        .take(3)
+        .map(|&j| {
+            format!(
+                "{} {:.0}%",
+                c.spec().features[j].name,
+                100.0 * total[j] / sum
+            )
+        })
+        .collect();
+    println!(
+        "  features that make flagged steps novel: {}",
+        top.join(", ")
+    );
+}
+
+fn print_worst(
+    steps: &crate::campaign::StepTable,
+    s: &RoundScores,
+    ex: &[crate::review::Excursion],
+    worst: usize,
+) {
+    let mut eps: Vec<(usize, usize, f32)> = steps
+        .episodes
+        .iter()
+        .enumerate()
+        .map(|(i, e)| {
+            let f = e.rows().filter(|&r| s.flagged[r]).count();
+            let m = e.rows().map(|r| s.novelty[r]).fold(0.0, f32::max);
+            (i, f, m)
+        })
+        .filter(|x| x.1 > 0)
+        .collect();
+    eps.sort_by(|a, b| b.1.cmp(&a.1).then(b.2.total_cmp(&a.2)));
+    if eps.is_empty() {
+        return;
+    }
+    println!("  episodes with the most flagged steps:");
+    for (i, f, m) in eps.into_iter().take(worst) {
+        let e = &steps.episodes[i];
+        let first = ex.iter().find(|x| x.episode == i).map(|x| steps.t[x.onset]);
+        let onset = first.map_or("no excursion".to_string(), |t| {
+            format!("first excursion at t = {t}")
+        });
+        println!(
+            "    {:<24} {f:>6} of {:>6} flagged, max novelty {m:.3}, {onset}",
+            e.name, e.len
+        );
+    }
+}

@@ -1,0 +1,234 @@
+//! The novelty model: scales, the index over every demonstration, and the conformal
+//! calibration made on held-out demonstration episodes.
+//!
+//! **Episode split.** Demonstration episodes (never single steps: neighbouring steps are
+//! near-copies, and a held-out step would find its own neighbours in the fit part, making every
+//! threshold too small) are ordered by a hash of their name and the first
+//! [`CALIBRATION_SHARE`] of them (at least one, leaving at least one) become the calibration
+//! part. The split depends only on the episode names, so it is the same on every run and does
+//! not change when files are renamed or reordered.
+//!
+//! **Calibration.** An index over the fit episodes scores the calibration episodes' steps (up
+//! to [`CALIBRATION_CAP`] steps, taken at an even stride through every calibration episode).
+//! A fresh expert episode is exchangeable with the calibration episodes, and a uniformly chosen
+//! step of it is exchangeable with a uniformly chosen calibration step, which is what the
+//! conformal guarantee needs.
+//!
+//! **Scoring index.** Rollouts are scored against an index over ALL demonstrations (more
+//! neighbours, better action estimates). Adding points to an index can only shrink a k-th
+//! neighbour distance, so a state's novelty against the full index is at most its novelty
+//! against the fit index, its p-value at least as large, and the flag rate on fresh expert
+//! states stays at most alpha (conservative rather than exact).
+
+use super::NoveltyError;
+use super::conformal::Conformal;
+use super::index::{Hit, KnnIndex};
+use super::query::seeded_knn;
+use super::scale::feature_scales;
+use crate::campaign::{Campaign, StepTable};
+use crate::progress::Progress;
+
+/// Share of demonstration episodes held out for calibration.
+pub const CALIBRATION_SHARE: f64 = 0.2;
+/// Most calibration steps scored (more only sharpen p-values beyond their 1/(n+1) grain).
+pub const CALIBRATION_CAP: usize = 20_000;
+
+/// Which demonstration episodes fit the calibration index and which calibrate it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct EpisodeSplit {
+    /// Episode indices of the fit part, ascending.
+    pub fit: Vec<usize>,
+    /// Episode indices of the calibration part, ascending.
+    pub calibration: Vec<usize>,
+}
+
+/// A built novelty model (see the module documentation for how it is made).
+#[derive(Debug)]
+pub struct NoveltyModel {
+    scale: Vec<f32>,
+    inv_scale: Vec<f32>,
+    index: KnnIndex,
+    conformal: Conformal,
+    k: usize,
+    split: EpisodeSplit,
+}
+
+/// FNV-1a, 64 bit (Fowler, Noll & Vo): a fixed, platform-independent hash for the split.
+pub fn fnv1a(bytes: &[u8]) -> u64 {
+    bytes.iter().fold(0xcbf2_9ce4_8422_2325, |h, &b| {
+        (h ^ u64::from(b)).wrapping_mul(0x0100_0000_01b3)
+    })
+}
+
+/// Splits the episodes of a demonstration table (see the module documentation).
+pub fn split_episodes(demos: &StepTable) -> Result<EpisodeSplit, NoveltyError> {
+    let m = demos.episodes.len();
+    if m < 2 {
+        return Err(NoveltyError::TooFewEpisodes { found: m });
+    }
+    let mut order: Vec<usize> = (0..m).collect();
+    order.sort_by_key(|&e| (fnv1a(demos.episodes[e].name.as_bytes()), e));
+    let n_cal = ((m as f64 * CALIBRATION_SHARE).ceil() as usize).clamp(1, m - 1);
+    let mut calibration = order[..n_cal].to_vec();
+    let mut fit = order[n_cal..].to_vec();
+    calibration.sort_unstable();
+    fit.sort_unstable();
+    Ok(EpisodeSplit { fit, calibration })
+}
+
+fn rows_of(demos: &StepTable, episodes: &[usize]) -> Vec<u32> {
+    episodes
+        .iter()
+        .flat_map(|&e| demos.episodes[e].rows().map(|r| r as u32))
+        .collect()
+}
+
+/// Builds the model for a campaign's demonstrations and novelty settings.
+pub fn build_model(campaign: &Campaign, progress: &Progress) -> Result<NoveltyModel, NoveltyError> {
+    let demos = &campaign.demonstrations;
+    let settings = &campaign.file.novelty;
+    build_model_from(
+        demos,
+        feature_scales(campaign.spec(), demos),
+        settings.k,
+        settings.alpha,
+        progress,
+    )
+}
+
+/// Builds the model from parts: demonstrations, per-feature scales, k and alpha.
+pub fn build_model_from(
+    demos: &StepTable,
+    scale: Vec<f32>,
+    k: usize,
+    alpha: f64,
+    progress: &Progress,
+) -> Result<NoveltyModel, NoveltyError> {
+    let d = demos.state_dim;
+    if scale.len() != d || scale.iter().any(|s| !(s.is_finite() && *s > 0.0)) {
+        return Err(NoveltyError::BadScale);
+    }
+    let split = split_episodes(demos)?;
+    let fit_rows = rows_of(demos, &split.fit);
+    if k == 0 || fit_rows.len() < k {
+        return Err(NoveltyError::TooFewStates {
+            k,
+            states: fit_rows.len(),
+        });
+    }
+    let inv_scale: Vec<f32> = scale.iter().map(|s| 1.0 / s).collect();
+    progress.stage("indexing", 2);
+    let fit =
+        KnnIndex::build(&demos.states, d, &inv_scale, &fit_rows).map_err(NoveltyError::Index)?;
+    progress.advance(1);
+    let cal_rows = calibration_rows(demos, &split.calibration);
+    let hits = seeded_knn(
+        &fit,
+        &inv_scale,
+        demos,
+        &cal_rows,
+        k,
+        "calibrating",
+        progress,
+    )?;
+    let novelties: Vec<f32> = hits.chunks_exact(k).map(kth_distance).collect();
+    drop(fit);
+    let all: Vec<u32> = (0..demos.len() as u32).collect();
+    progress.stage("indexing", 1);
+    let index = KnnIndex::build(&demos.states, d, &inv_scale, &all).map_err(NoveltyError::Index)?;
+    progress.advance(1);
+    Ok(NoveltyModel {
+        scale,
+        inv_scale,
+        index,
+        conformal: Conformal::new(novelties, alpha),
+        k,
+        split,
+    })
+}
+
+/// Distance (not squared) of the last hit of a sorted k-neighbour list.
+pub fn kth_distance(hits: &[Hit]) -> f32 {
+    hits.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt())
+}
+
+fn calibration_rows(demos: &StepTable, episodes: &[usize]) -> Vec<usize> {
+    let total: usize = episodes.iter().map(|&e| demos.episodes[e].len).sum();
+    let stride = total.div_ceil(CALIBRATION_CAP).max(1);
+    episodes
+        .iter()
+        .flat_map(|&e| demos.episodes[e].rows().step_by(stride))
+        .collect()
+}
+
+impl NoveltyModel {
+    /// Per-feature scales (novelty divides each feature by its scale).
+    pub fn scale(&self) -> &[f32] {
+        &self.scale
+    }
+
+    /// Reciprocals of the scales.
+    pub fn inv_scale(&self) -> &[f32] {
+        &self.inv_scale
+    }
+
+    /// Novelty above which a step is flagged (its p-value is at most alpha).
+    pub fn threshold(&self) -> f32 {
+        self.conformal.threshold()
+    }
+
+    /// The conformal p-value of a novelty score.
+    pub fn p_value(&self, score: f32) -> f64 {
+        self.conformal.p_value(score)
+    }
+
+    /// The flag level.
+    pub fn alpha(&self) -> f64 {
+        self.conformal.alpha()
+    }
+
+    /// Which neighbour's distance is the novelty.
+    pub fn k(&self) -> usize {
+        self.k
+    }
+
+    /// The calibration.
+    pub fn conformal(&self) -> &Conformal {
+        &self.conformal
+    }
+
+    /// The episode split used for calibration.
+    pub fn split(&self) -> &EpisodeSplit {
+        &self.split
+    }
+
+    /// The index over all demonstrations.
+    pub fn index(&self) -> &KnnIndex {
+        &self.index
+    }
+
+    /// Scales a raw state into `out`.
+    pub fn scale_into(&self, state: &[f32], out: &mut Vec<f32>) {
+        out.clear();
+        out.extend(state.iter().zip(&self.inv_scale).map(|(x, i)| x * i));
+    }
+
+    /// The `k` nearest demonstration states to a raw (unscaled) state: demonstration rows
+    /// and scaled distances (not squared), nearest first.
+    pub fn nearest(&self, state: &[f32], k: usize) -> Vec<(usize, f32)> {
+        let mut q = Vec::new();
+        self.scale_into(state, &mut q);
+        let mut hits = Vec::new();
+        self.index.knn(&q, k, f32::INFINITY, &mut hits);
+        hits.iter()
+            .map(|&(r, d2)| (r as usize, d2.max(0.0).sqrt()))
+            .collect()
+    }
+
+    /// Novelty of a raw state: the distance to its k-th nearest demonstration state.
+    pub fn novelty(&self, state: &[f32]) -> f32 {
+        self.nearest(state, self.k)
+            .last()
+            .map_or(f32::INFINITY, |h| h.1)
+    }
+}

@@ -1,0 +1,128 @@
+//! Batched k-nearest-neighbour queries over the steps of a table, in parallel (rayon).
+//!
+//! **Seeding.** The k-th neighbour distance `d_k` is 1-Lipschitz in the query point: for
+//! consecutive steps `x` and `y` of one episode, `d_k(y) <= d_k(x) + |y - x|` (the k points
+//! within `d_k(x)` of `x` are all within `d_k(x) + |y - x|` of `y`). Each step's search is
+//! therefore bounded by the previous step's answer plus the step length, which lets the tree
+//! skip every branch beyond that radius from the start. The bound is an upper bound, so the
+//! result stays exact. Rows are processed in chunks of [`CHUNK_ROWS`] consecutive rows;
+//! the chain restarts at each chunk and episode start.
+
+use rayon::prelude::*;
+
+use super::NoveltyError;
+use super::index::{Hit, KnnIndex};
+use crate::campaign::StepTable;
+use crate::progress::Progress;
+
+/// Consecutive rows handled by one parallel task.
+pub const CHUNK_ROWS: usize = 512;
+
+/// Seeded k-nearest-neighbour search for `rows` of `table` (see the module documentation):
+/// `rows.len() * k` hits, each row's `k` nearest first to last.
+pub fn seeded_knn(
+    index: &KnnIndex,
+    inv_scale: &[f32],
+    table: &StepTable,
+    rows: &[usize],
+    k: usize,
+    stage: &str,
+    progress: &Progress,
+) -> Result<Vec<Hit>, NoveltyError> {
+    knn_rows(index, inv_scale, table, rows, k, true, stage, progress)
+}
+
+/// Like [`seeded_knn`]; `seeded = false` runs every query unbounded (the plain baseline).
+#[allow(clippy::too_many_arguments)]
+pub fn knn_rows(
+    index: &KnnIndex,
+    inv_scale: &[f32],
+    table: &StepTable,
+    rows: &[usize],
+    k: usize,
+    seeded: bool,
+    stage: &str,
+    progress: &Progress,
+) -> Result<Vec<Hit>, NoveltyError> {
+    let k = k.min(index.len()).max(1);
+    let mut out = vec![(0u32, f32::INFINITY); rows.len() * k];
+    progress.stage(stage, rows.len() as u64);
+    out.par_chunks_mut(CHUNK_ROWS * k)
+        .enumerate()
+        .try_for_each(|(c, chunk)| {
+            if progress.is_cancelled() {
+                return Err(NoveltyError::Cancelled);
+            }
+            let mine = &rows[c * CHUNK_ROWS..(c * CHUNK_ROWS + chunk.len() / k)];
+            chain(index, inv_scale, table, mine, k, seeded, chunk);
+            progress.advance(mine.len() as u64);
+            Ok(())
+        })?;
+    Ok(out)
+}
+
+fn chain(
+    index: &KnnIndex,
+    inv_scale: &[f32],
+    table: &StepTable,
+    rows: &[usize],
+    k: usize,
+    seeded: bool,
+    out: &mut [Hit],
+) {
+    let d = table.state_dim;
+    let (mut q, mut prev_q) = (vec![0.0f32; d], vec![0.0f32; d]);
+    let mut prev: Option<(usize, f32)> = None;
+    let mut hits = Vec::with_capacity(k);
+    for (&row, slot) in rows.iter().zip(out.chunks_exact_mut(k)) {
+        for ((o, x), i) in q.iter_mut().zip(table.state(row)).zip(inv_scale) {
+            *o = x * i;
+        }
+        let episode = table.episode_of(row);
+        let bound = match prev {
+            Some((e, dk)) if seeded && e == episode => dk + distance(&q, &prev_q),
+            _ => f32::INFINITY,
+        };
+        index.knn(&q, k, bound, &mut hits);
+        slot[..hits.len()].copy_from_slice(&hits);
+        let dk = hits.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt());
+        prev = Some((episode, dk));
+        std::mem::swap(&mut q, &mut prev_q);
+    }
+}
+
+/// Euclidean distance between two equally long vectors.
+pub fn distance(a: &[f32], b: &[f32]) -> f32 {
+    a.iter()
+        .zip(b)
+        .map(|(x, y)| (x - y) * (x - y))
+        .sum::<f32>()
+        .sqrt()
+}
+
+/// Brute-force k nearest neighbours of a scaled query among all rows of the row-major
+/// `states` (scaled by `inv_scale` on the fly): the oracle for tests and the benchmark's
+/// baseline. Squared distances, ascending; ties by row.
+pub fn brute_knn(states: &[f32], dim: usize, inv_scale: &[f32], q: &[f32], k: usize) -> Vec<Hit> {
+    let mut all: Vec<Hit> = states
+        .chunks_exact(dim)
+        .enumerate()
+        .map(|(r, s)| {
+            let d2 = s
+                .iter()
+                .zip(inv_scale)
+                .zip(q)
+                .map(|((x, i), y)| (x * i - y) * (x * i - y))
+                .sum();
+            (r as u32, d2)
+        })
+        .collect();
+    let k = k.min(all.len());
+    if k == 0 {
+        return Vec::new();
+    }
+    all.select_nth_unstable_by(k - 1, |a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    all.truncate(k);
+    all.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    all
+}

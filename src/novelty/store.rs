@@ -1,0 +1,262 @@
+//! Saved scores: `analysis/<round>/scores.npz` in the campaign folder, shared by the command
+//! line (`countersteer score`) and the desktop workbench.
+//!
+//! An uncompressed NumPy `.npz` archive (readable with `numpy.load`) holding, for `n` steps of
+//! the round in table order (episodes in file order, steps by `t`):
+//!
+//! | array | dtype | shape | meaning |
+//! | --- | --- | --- | --- |
+//! | `episode` | unicode | (n,) | episode name |
+//! | `t` | int64 | (n,) | time index |
+//! | `novelty` | float32 | (n,) | distance to the k-th nearest demonstration state (scaled) |
+//! | `p_value` | float32 | (n,) | conformal p-value |
+//! | `flagged` | bool | (n,) | `p_value <= alpha` |
+//! | `contributions` | float32 | (n, D) | per-feature share of the squared nearest distance |
+//! | `action_gap` | float32 | (n,) | learner vs. neighbour consensus, range units |
+//! | `neighbour_action` | float32 | (n, A) | the neighbours' consensus action |
+//! | `neighbour_spread` | float32 | (n,) | the neighbours' spread, range units |
+//! | `ensemble_spread` | float32 | (n,) | ensemble sample spread (NaN: no samples) |
+//! | `neighbours` | uint32 | (n, k) | demonstration rows of the neighbours, nearest first |
+//! | `threshold` | float32 | (1,) | novelty above which steps are flagged |
+//! | `alpha` | float64 | (1,) | flag level |
+//! | `scale` | float32 | (D,) | per-feature scales of the novelty distance |
+//!
+//! Scores are derived data: scoring again replaces the file (written beside it, then renamed,
+//! so a reader never sees half a file). Nothing the experts entered lives here.
+
+use std::fs::File;
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use npyz::WriterBuilder;
+
+use super::NoveltyError;
+use super::score::RoundScores;
+use crate::campaign::StepTable;
+use crate::campaign::numpy::{Array, ArraySource, NpzSource, Values};
+
+/// Folder of derived per-round files.
+pub const ANALYSIS_DIR: &str = "analysis";
+/// File name of a round's scores.
+pub const SCORES_FILE: &str = "scores.npz";
+
+/// `analysis/<round>/` of a campaign.
+pub fn round_dir(root: &Path, round: u32) -> PathBuf {
+    root.join(ANALYSIS_DIR).join(round.to_string())
+}
+
+/// `analysis/<round>/scores.npz` of a campaign.
+pub fn scores_path(root: &Path, round: u32) -> PathBuf {
+    round_dir(root, round).join(SCORES_FILE)
+}
+
+fn store_err(path: &Path, message: impl std::fmt::Display) -> NoveltyError {
+    NoveltyError::Store {
+        path: path.to_path_buf(),
+        message: message.to_string(),
+    }
+}
+
+/// Writes `bytes` to `path` atomically (a temporary sibling, flushed, then renamed).
+pub fn write_atomic(
+    path: &Path,
+    write: impl FnOnce(&mut BufWriter<File>) -> std::io::Result<()>,
+) -> Result<(), NoveltyError> {
+    let dir = path.parent().unwrap_or(Path::new("."));
+    std::fs::create_dir_all(dir).map_err(|e| store_err(dir, e))?;
+    let tmp = path.with_extension("partial");
+    let file = File::create(&tmp).map_err(|e| store_err(&tmp, e))?;
+    let mut w = BufWriter::new(file);
+    write(&mut w).map_err(|e| store_err(&tmp, e))?;
+    let file = w.into_inner().map_err(|e| store_err(&tmp, e.error()))?;
+    file.sync_all().map_err(|e| store_err(&tmp, e))?;
+    std::fs::rename(&tmp, path).map_err(|e| store_err(path, e))
+}
+
+/// Saves scores of `steps` to `analysis/<round>/scores.npz` and returns the path.
+pub fn save_scores(
+    root: &Path,
+    round: u32,
+    steps: &StepTable,
+    s: &RoundScores,
+) -> Result<PathBuf, NoveltyError> {
+    let path = scores_path(root, round);
+    write_atomic(&path, |w| write_npz(steps, s, w))?;
+    Ok(path)
+}
+
+fn opts() -> npyz::zip::write::FileOptions {
+    npyz::zip::write::FileOptions::default()
+        .compression_method(npyz::zip::CompressionMethod::Stored)
+        .last_modified_time(npyz::zip::DateTime::default())
+}
+
+fn put<T: npyz::Serialize + npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(
+    npz: &mut npyz::npz::NpzWriter<W>,
+    name: &str,
+    shape: &[u64],
+    values: &[T],
+) -> std::io::Result<()> {
+    let mut arr = npz
+        .array::<T>(name, opts())?
+        .default_dtype()
+        .shape(shape)
+        .begin_nd()?;
+    arr.extend(values.iter().copied())?;
+    arr.finish()
+}
+
+/// Writes the scores archive (see the module documentation) to any seekable writer.
+pub fn write_npz<W: Write + std::io::Seek>(
+    steps: &StepTable,
+    s: &RoundScores,
+    w: W,
+) -> std::io::Result<()> {
+    let mut npz = npyz::npz::NpzWriter::new(w);
+    let n = s.len() as u64;
+    let names: Vec<String> = steps
+        .episodes
+        .iter()
+        .flat_map(|e| std::iter::repeat_n(e.name.clone(), e.len))
+        .collect();
+    let width = names
+        .iter()
+        .map(|s| s.chars().count())
+        .max()
+        .unwrap_or(1)
+        .max(1);
+    let dtype = npyz::DType::Plain(
+        format!("<U{width}")
+            .parse()
+            .map_err(std::io::Error::other)?,
+    );
+    let mut arr = npz
+        .array::<String>("episode", opts())?
+        .dtype(dtype)
+        .shape(&[n])
+        .begin_nd()?;
+    arr.extend(names.iter().cloned())?;
+    arr.finish()?;
+    put(&mut npz, "t", &[n], &steps.t)?;
+    put(&mut npz, "novelty", &[n], &s.novelty)?;
+    put(&mut npz, "p_value", &[n], &s.p_value)?;
+    put(&mut npz, "flagged", &[n], &s.flagged)?;
+    put(
+        &mut npz,
+        "contributions",
+        &[n, s.state_dim as u64],
+        &s.contributions,
+    )?;
+    put(&mut npz, "action_gap", &[n], &s.action_gap)?;
+    put(
+        &mut npz,
+        "neighbour_action",
+        &[n, s.action_dim as u64],
+        &s.neighbour_action,
+    )?;
+    put(&mut npz, "neighbour_spread", &[n], &s.neighbour_spread)?;
+    put(&mut npz, "ensemble_spread", &[n], &s.ensemble_spread)?;
+    put(&mut npz, "neighbours", &[n, s.k as u64], &s.neighbours)?;
+    put(&mut npz, "threshold", &[1], &[s.threshold])?;
+    put(&mut npz, "alpha", &[1], &[s.alpha])?;
+    put(&mut npz, "scale", &[s.state_dim as u64], &s.scale)?;
+    Ok(())
+}
+
+struct Reader {
+    src: NpzSource,
+    path: PathBuf,
+}
+
+impl Reader {
+    fn array(&mut self, name: &str, shape: &[u64]) -> Result<Array, NoveltyError> {
+        let a = self
+            .src
+            .array(name)
+            .map_err(|e| store_err(&self.path, format!("array `{name}`: {e}")))?
+            .ok_or_else(|| store_err(&self.path, format!("array `{name}` is missing")))?;
+        if a.shape != shape {
+            return Err(store_err(
+                &self.path,
+                format!(
+                    "array `{name}` has shape {:?}, expected {shape:?}; score the round again",
+                    a.shape
+                ),
+            ));
+        }
+        Ok(a)
+    }
+
+    fn floats(&mut self, name: &str, shape: &[u64]) -> Result<Vec<f64>, NoveltyError> {
+        match self.array(name, shape)?.values {
+            Values::Numbers(v) => Ok(v),
+            Values::Integers(v) => Ok(v.into_iter().map(|x| x as f64).collect()),
+            Values::Text(_) => Err(store_err(
+                &self.path,
+                format!("array `{name}` holds text, not numbers"),
+            )),
+        }
+    }
+
+    fn f32s(&mut self, name: &str, shape: &[u64]) -> Result<Vec<f32>, NoveltyError> {
+        Ok(self
+            .floats(name, shape)?
+            .into_iter()
+            .map(|x| x as f32)
+            .collect())
+    }
+}
+
+/// Loads saved scores of a round; refuses a file whose step count or dimensions do not match
+/// `steps` (the round changed since it was scored).
+pub fn load_scores(
+    root: &Path,
+    round: u32,
+    steps: &StepTable,
+) -> Result<RoundScores, NoveltyError> {
+    let path = scores_path(root, round);
+    let src = NpzSource::open(&path).map_err(|e| store_err(&path, e))?;
+    let mut r = Reader { src, path };
+    let n = steps.len() as u64;
+    let (d, a) = (steps.state_dim as u64, steps.action_dim as u64);
+    let t = r.floats("t", &[n])?;
+    if t.iter().zip(&steps.t).any(|(x, y)| *x as i64 != *y) {
+        return Err(store_err(
+            &r.path,
+            "array `t` does not match the round's steps; score the round again",
+        ));
+    }
+    let nb = r
+        .src
+        .array("neighbours")
+        .map_err(|e| store_err(&r.path, e))?;
+    let k = nb
+        .as_ref()
+        .and_then(|a| a.shape.get(1).copied())
+        .unwrap_or(0);
+    Ok(RoundScores {
+        state_dim: d as usize,
+        action_dim: a as usize,
+        k: k as usize,
+        novelty: r.f32s("novelty", &[n])?,
+        p_value: r.f32s("p_value", &[n])?,
+        flagged: r
+            .floats("flagged", &[n])?
+            .into_iter()
+            .map(|x| x != 0.0)
+            .collect(),
+        contributions: r.f32s("contributions", &[n, d])?,
+        action_gap: r.f32s("action_gap", &[n])?,
+        neighbour_action: r.f32s("neighbour_action", &[n, a])?,
+        neighbour_spread: r.f32s("neighbour_spread", &[n])?,
+        ensemble_spread: r.f32s("ensemble_spread", &[n])?,
+        neighbours: r
+            .floats("neighbours", &[n, k])?
+            .into_iter()
+            .map(|x| x as u32)
+            .collect(),
+        threshold: r.f32s("threshold", &[1])?[0],
+        alpha: r.floats("alpha", &[1])?[0],
+        scale: r.f32s("scale", &[d])?,
+    })
+}

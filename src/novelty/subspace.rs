@@ -1,0 +1,231 @@
+//! The search path for states wider than the widest compiled tree.
+//!
+//! kiddo picks split axes by cycling through the dimensions, so with ~20 tree levels most axes
+//! of a 64-wide state are never split and a plain tree degrades to brute force. Trajectory
+//! data is usually close to a low-dimensional subspace, so this path builds the tree over the
+//! state's leading principal components (principal component analysis of the scaled
+//! demonstrations; Jolliffe 2002) plus one more coordinate: the norm of the residual outside
+//! that subspace (the Q statistic of Jackson & Mudholkar 1979). For any two states,
+//! `|P(x - y)|^2 + (|R x| - |R y|)^2 <= |x - y|^2` (Pythagoras plus the reverse triangle
+//! inequality in the residual space), so distances in the tree are lower bounds of the true
+//! ones. A query takes a few tree neighbours, measures their exact distances to get an upper
+//! bound on the k-th distance, then collects every point whose lower bound is within it and
+//! measures those exactly. The answer is exact; only the speed depends on how much of the
+//! variance the subspace holds.
+
+use super::index::{Hit, TreeBackend, build_tree};
+
+/// Tree dimension of the subspace path: principal components plus the residual norm.
+pub const SUBSPACE_TREE_DIM: usize = 16;
+/// Rows sampled (evenly) to estimate the covariance.
+pub const COVARIANCE_SAMPLE_ROWS: usize = 50_000;
+
+/// Principal-subspace index (see the module documentation).
+pub struct Subspace {
+    dim: usize,
+    m: usize,
+    mean: Vec<f32>,
+    /// `m` basis vectors of length `dim`, row-major.
+    basis: Vec<f32>,
+    points: Vec<f32>,
+    rows: Vec<u32>,
+    tree: Box<dyn TreeBackend>,
+}
+
+impl Subspace {
+    /// Builds the index over `rows` of `states` scaled by `inv_scale`.
+    pub fn build(
+        states: &[f32],
+        dim: usize,
+        inv_scale: &[f32],
+        rows: &[u32],
+    ) -> Result<Self, String> {
+        let m = (SUBSPACE_TREE_DIM - 1).min(dim);
+        let mut points = Vec::with_capacity(rows.len() * dim);
+        for &r in rows {
+            let s = &states[r as usize * dim..(r as usize + 1) * dim];
+            points.extend(s.iter().zip(inv_scale).map(|(x, i)| x * i));
+        }
+        let (mean, basis) = principal_basis(&points, dim, m);
+        let mut s = Subspace {
+            dim,
+            m,
+            mean,
+            basis,
+            points,
+            rows: rows.to_vec(),
+            tree: build_tree(1, &[], |_, _| 0.0)?,
+        };
+        let e = m + 1;
+        let mut embedded = vec![0.0f32; rows.len() * e];
+        for (i, out) in embedded.chunks_exact_mut(e).enumerate() {
+            s.embed(&s.points[i * dim..(i + 1) * dim], out);
+        }
+        let ids: Vec<u32> = (0..rows.len() as u32).collect();
+        s.tree = build_tree(e, &ids, |i, j| embedded[i as usize * e + j])?;
+        Ok(s)
+    }
+
+    /// Number of principal components in the tree.
+    pub fn components(&self) -> usize {
+        self.m
+    }
+
+    fn embed(&self, x: &[f32], out: &mut [f32]) {
+        let c: Vec<f32> = x.iter().zip(&self.mean).map(|(a, b)| a - b).collect();
+        let mut in_plane = 0.0f32;
+        for (k, o) in out[..self.m].iter_mut().enumerate() {
+            let v = &self.basis[k * self.dim..(k + 1) * self.dim];
+            *o = dot(v, &c);
+            in_plane += *o * *o;
+        }
+        let total = dot(&c, &c);
+        out[self.m] = (total - in_plane).max(0.0).sqrt();
+    }
+
+    fn exact(&self, q: &[f32], i: u32) -> f32 {
+        let p = &self.points[i as usize * self.dim..(i as usize + 1) * self.dim];
+        p.iter().zip(q).map(|(a, b)| (a - b) * (a - b)).sum()
+    }
+
+    /// The `k` nearest points within squared distance `bound2`, exact, ascending.
+    pub fn knn(&self, q: &[f32], k: usize, bound2: f32, out: &mut Vec<Hit>) {
+        out.clear();
+        let mut e = vec![0.0f32; self.m + 1];
+        self.embed(q, &mut e);
+        let mut cand = Vec::new();
+        self.tree.knn(&e, (2 * k).max(8), bound2, &mut cand);
+        let mut exact: Vec<Hit> = cand.iter().map(|&(i, _)| (i, self.exact(q, i))).collect();
+        exact.sort_by(|a, b| a.1.total_cmp(&b.1));
+        let upper = match exact.get(k.saturating_sub(1)) {
+            Some(&(_, d)) if k > 0 => d.min(bound2),
+            _ => bound2,
+        };
+        if upper.is_finite() {
+            self.tree.within(&e, upper * (1.0 + 1e-5), &mut cand);
+            exact.clear();
+            exact.extend(cand.iter().map(|&(i, _)| (i, self.exact(q, i))));
+            exact.retain(|h| h.1 <= upper * (1.0 + 1e-5));
+            exact.sort_by(|a, b| a.1.total_cmp(&b.1));
+        }
+        out.extend(
+            exact
+                .iter()
+                .take(k)
+                .map(|&(i, d)| (self.rows[i as usize], d)),
+        );
+    }
+}
+
+fn dot(a: &[f32], b: &[f32]) -> f32 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// Mean and the `m` leading eigenvectors of the covariance of row-major `points`.
+fn principal_basis(points: &[f32], dim: usize, m: usize) -> (Vec<f32>, Vec<f32>) {
+    let n = points.len() / dim.max(1);
+    let stride = n.div_ceil(COVARIANCE_SAMPLE_ROWS).max(1);
+    let sample: Vec<&[f32]> = (0..n)
+        .step_by(stride)
+        .map(|i| &points[i * dim..(i + 1) * dim])
+        .collect();
+    let count = sample.len().max(1) as f64;
+    let mut mean = vec![0.0f64; dim];
+    for p in &sample {
+        for (m, &x) in mean.iter_mut().zip(*p) {
+            *m += f64::from(x) / count;
+        }
+    }
+    let mut cov = vec![0.0f64; dim * dim];
+    for p in &sample {
+        for a in 0..dim {
+            let da = f64::from(p[a]) - mean[a];
+            for b in a..dim {
+                cov[a * dim + b] += da * (f64::from(p[b]) - mean[b]) / count;
+            }
+        }
+    }
+    for a in 0..dim {
+        for b in 0..a {
+            cov[a * dim + b] = cov[b * dim + a];
+        }
+    }
+    let (values, vectors) = jacobi_eigen(cov, dim);
+    let mut order: Vec<usize> = (0..dim).collect();
+    order.sort_by(|&a, &b| values[b].total_cmp(&values[a]));
+    let mut basis = Vec::with_capacity(m * dim);
+    for &c in order.iter().take(m) {
+        basis.extend((0..dim).map(|r| vectors[r * dim + c] as f32));
+    }
+    (mean.iter().map(|&x| x as f32).collect(), basis)
+}
+
+/// Eigenvalues and eigenvectors (columns of a row-major matrix) of a symmetric matrix by the
+/// cyclic Jacobi method (Golub & Van Loan, Matrix Computations, 4th ed., section 8.5).
+pub fn jacobi_eigen(mut a: Vec<f64>, n: usize) -> (Vec<f64>, Vec<f64>) {
+    let mut v = vec![0.0f64; n * n];
+    for i in 0..n {
+        v[i * n + i] = 1.0;
+    }
+    for _sweep in 0..60 {
+        let off: f64 = (0..n)
+            .flat_map(|p| (0..n).filter(move |&q| q != p).map(move |q| (p, q)))
+            .map(|(p, q)| a[p * n + q] * a[p * n + q])
+            .sum();
+        let scale: f64 = (0..n).map(|i| a[i * n + i] * a[i * n + i]).sum();
+        if off <= 1e-22 * scale.max(1e-300) {
+            break;
+        }
+        for p in 0..n {
+            for q in p + 1..n {
+                rotate(&mut a, &mut v, n, p, q);
+            }
+        }
+    }
+    ((0..n).map(|i| a[i * n + i]).collect(), v)
+}
+
+fn rotate(a: &mut [f64], v: &mut [f64], n: usize, p: usize, q: usize) {
+    let apq = a[p * n + q];
+    if apq.abs() < 1e-300 {
+        return;
+    }
+    let theta = (a[q * n + q] - a[p * n + p]) / (2.0 * apq);
+    let t = theta.signum() / (theta.abs() + (theta * theta + 1.0).sqrt());
+    let t = if theta == 0.0 { 1.0 } else { t };
+    let c = 1.0 / (t * t + 1.0).sqrt();
+    let s = t * c;
+    for k in 0..n {
+        let (akp, akq) = (a[k * n + p], a[k * n + q]);
+        a[k * n + p] = c * akp - s * akq;
+        a[k * n + q] = s * akp + c * akq;
+    }
+    for k in 0..n {
+        let (apk, aqk) = (a[p * n + k], a[q * n + k]);
+        a[p * n + k] = c * apk - s * aqk;
+        a[q * n + k] = s * apk + c * aqk;
+    }
+    for k in 0..n {
+        let (vkp, vkq) = (v[k * n + p], v[k * n + q]);
+        v[k * n + p] = c * vkp - s * vkq;
+        v[k * n + q] = s * vkp + c * vkq;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn jacobi_finds_the_eigenpairs_of_a_textbook_matrix() {
+        // [[2,1],[1,2]] has eigenvalues 1 and 3 with eigenvectors (1,-1)/sqrt2, (1,1)/sqrt2
+        // (worked by hand from the characteristic polynomial (2-l)^2 - 1).
+        let (vals, vecs) = jacobi_eigen(vec![2.0, 1.0, 1.0, 2.0], 2);
+        let mut sorted = vals.clone();
+        sorted.sort_by(f64::total_cmp);
+        assert!((sorted[0] - 1.0).abs() < 1e-12 && (sorted[1] - 3.0).abs() < 1e-12);
+        let big = if vals[0] > vals[1] { 0 } else { 1 };
+        let (x, y) = (vecs[big], vecs[2 + big]);
+        assert!((x.abs() - 0.5f64.sqrt()).abs() < 1e-12 && (x - y).abs() < 1e-12);
+    }
+}

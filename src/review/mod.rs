@@ -1,0 +1,14 @@
+//! Review: from a scored round to the budgeted, diverse list of steps the expert should see.
+//!
+//! [`excursions`] finds runs of flagged steps with hysteresis; [`plan`] gathers candidates
+//! (excursion onsets and peaks, steps before interventions, large action gaps), ranks them and
+//! chooses a diverse subset by greedy [`kcenter`] seeded with existing corrections; [`store`]
+//! writes the list to the campaign.
+
+pub mod excursions;
+pub mod kcenter;
+pub mod plan;
+pub mod store;
+
+pub use excursions::{Excursion, ExcursionSettings, excursions};
+pub use plan::{PlanSettings, Planner, Reason, ReviewEntry, ReviewList, plan, states_of_rows};

@@ -1,0 +1,337 @@
+//! The review list: which steps the expert should see, under a budget.
+//!
+//! **Candidates.** A step becomes a candidate for one or more [`Reason`]s: it is an excursion
+//! onset (the first step out of expert territory, where a correction can still recover), an
+//! excursion peak, one of the `pre_intervention` steps before the expert took over (the
+//! learner's last decisions), or its action gap is at least `action_gap_min` (at most
+//! `pool_factor * budget` of those, largest first).
+//!
+//! **Priority.** `priority = sum of the reasons' weights + 0.25 * min(novelty / threshold, 4) / 4`,
+//! with weights onset 1.0, before intervention 0.7, peak 0.4, action gap 0.3: an onset outranks
+//! any single other reason however novel, then come the moments before a takeover, and among
+//! equals the more novel step.
+//!
+//! **Diversity.** The `pool_factor * budget` highest-priority candidates enter a greedy
+//! k-center selection in scaled state space ([`super::kcenter`]) seeded with the states that
+//! already have corrections. With no correction the first pick is the top-priority candidate;
+//! each later pick is the candidate farthest from every correction and earlier pick. A pick
+//! removes every candidate of the same episode less than `min_gap` steps away. Selection stops
+//! at the budget, when no candidate is left, or when the farthest candidate is no more than
+//! `min_distance` from a correction or pick. The chosen entries are listed by priority
+//! (highest first); each keeps its pick order in [`ReviewEntry::pick`], and the first picks
+//! of that order are themselves a diverse selection.
+//!
+//! **Re-planning.** [`Planner::new`] does the work that depends on the scores only (`O(n)` in
+//! the round's steps plus sorting the candidates). [`Planner::plan`] then costs
+//! `O((corrections + budget) * pool * dim)`: a few milliseconds for a 500-step budget, cheap
+//! enough to run after every correction.
+
+use std::collections::BTreeMap;
+
+use super::excursions::{ExcursionSettings, excursions};
+use super::kcenter::Cover;
+use crate::campaign::StepTable;
+use crate::novelty::RoundScores;
+
+/// Why a step is on the review list.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Reason {
+    /// First step of an excursion.
+    ExcursionOnset,
+    /// Most novel step of an excursion.
+    ExcursionPeak,
+    /// One of the steps just before the expert took over.
+    BeforeIntervention,
+    /// The learner's action differs much from the experts' nearby.
+    ActionGap,
+}
+
+impl Reason {
+    /// The reason's weight in the priority.
+    pub fn weight(self) -> f32 {
+        match self {
+            Reason::ExcursionOnset => 1.0,
+            Reason::BeforeIntervention => 0.7,
+            Reason::ExcursionPeak => 0.4,
+            Reason::ActionGap => 0.3,
+        }
+    }
+
+    /// Short name used in files and printouts.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Reason::ExcursionOnset => "onset",
+            Reason::ExcursionPeak => "peak",
+            Reason::BeforeIntervention => "before-intervention",
+            Reason::ActionGap => "action-gap",
+        }
+    }
+}
+
+/// How the review list is made.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanSettings {
+    /// Most entries.
+    pub budget: usize,
+    /// Fewest steps between two entries of one episode.
+    pub min_gap: usize,
+    /// Steps before an intervention that are candidates.
+    pub pre_intervention: usize,
+    /// Action gap (range units) from which a step is a candidate.
+    pub action_gap_min: f32,
+    /// Candidates entering the diversity selection, as a multiple of the budget.
+    pub pool_factor: usize,
+    /// Stop when the farthest candidate is within this scaled distance of a correction or pick.
+    pub min_distance: f32,
+    /// How excursions are found.
+    pub excursion: ExcursionSettings,
+}
+
+impl Default for PlanSettings {
+    fn default() -> Self {
+        PlanSettings {
+            budget: 50,
+            min_gap: 10,
+            pre_intervention: 10,
+            action_gap_min: 0.25,
+            pool_factor: 8,
+            min_distance: 0.0,
+            excursion: ExcursionSettings::default(),
+        }
+    }
+}
+
+/// One step on the review list.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReviewEntry {
+    /// When the diversity selection picked it (0 first).
+    pub pick: usize,
+    /// Row of the round's step table.
+    pub row: usize,
+    /// Episode index.
+    pub episode: usize,
+    /// Time index.
+    pub t: i64,
+    /// Why it is on the list (sorted).
+    pub reasons: Vec<Reason>,
+    /// Priority (see the module documentation).
+    pub priority: f32,
+    /// Novelty.
+    pub novelty: f32,
+    /// Conformal p-value.
+    pub p_value: f32,
+    /// Action gap.
+    pub action_gap: f32,
+    /// Scaled distance to the nearest correction or earlier entry when it was picked
+    /// (infinite for a first pick with no correction).
+    pub distance: f32,
+}
+
+/// The review list.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ReviewList {
+    /// Entries by priority, highest first (ties by row).
+    pub entries: Vec<ReviewEntry>,
+    /// Largest distance from a remaining pool candidate to its nearest correction or entry.
+    pub covering_radius: f32,
+    /// Candidates found before pooling.
+    pub candidates: usize,
+    /// Candidates in the diversity pool.
+    pub pool: usize,
+}
+
+#[derive(Debug, Clone)]
+struct Candidate {
+    row: usize,
+    reasons: Vec<Reason>,
+    priority: f32,
+}
+
+/// The scores-only part of planning, kept to re-plan cheaply as corrections arrive.
+#[derive(Debug, Clone)]
+pub struct Planner {
+    pool: Vec<Candidate>,
+    points: Vec<f32>,
+    dim: usize,
+    inv_scale: Vec<f32>,
+    candidates: usize,
+    settings: PlanSettings,
+}
+
+fn priority(reasons: &[Reason], novelty: f32, threshold: f32) -> f32 {
+    let ratio = if threshold.is_finite() && threshold > 0.0 {
+        0.25 * (novelty / threshold).clamp(0.0, 4.0) / 4.0
+    } else {
+        0.0
+    };
+    reasons.iter().map(|r| r.weight()).sum::<f32>() + ratio
+}
+
+fn candidate_reasons(
+    steps: &StepTable,
+    scores: &RoundScores,
+    s: &PlanSettings,
+) -> BTreeMap<usize, Vec<Reason>> {
+    let mut m: BTreeMap<usize, Vec<Reason>> = BTreeMap::new();
+    for x in excursions(steps, scores, &s.excursion) {
+        m.entry(x.onset).or_default().push(Reason::ExcursionOnset);
+        m.entry(x.peak).or_default().push(Reason::ExcursionPeak);
+    }
+    if !steps.interventions.is_empty() {
+        for ep in &steps.episodes {
+            for row in ep.rows().filter(|&r| r > ep.start) {
+                if steps.intervention(row) && !steps.intervention(row - 1) {
+                    for r in row.saturating_sub(s.pre_intervention).max(ep.start)..row {
+                        m.entry(r).or_default().push(Reason::BeforeIntervention);
+                    }
+                }
+            }
+        }
+    }
+    let mut gaps: Vec<usize> = (0..scores.len())
+        .filter(|&r| scores.action_gap[r] >= s.action_gap_min)
+        .collect();
+    let cap = s.pool_factor.max(1) * s.budget.max(1);
+    if gaps.len() > cap {
+        gaps.select_nth_unstable_by(cap, |&a, &b| {
+            scores.action_gap[b].total_cmp(&scores.action_gap[a])
+        });
+        gaps.truncate(cap);
+    }
+    for r in gaps {
+        m.entry(r).or_default().push(Reason::ActionGap);
+    }
+    m
+}
+
+impl Planner {
+    /// Finds and ranks the candidates of a scored round (the expensive, scores-only part).
+    pub fn new(steps: &StepTable, scores: &RoundScores, settings: &PlanSettings) -> Self {
+        let mut pool: Vec<Candidate> = candidate_reasons(steps, scores, settings)
+            .into_iter()
+            .map(|(row, mut reasons)| {
+                reasons.sort_unstable();
+                reasons.dedup();
+                let priority = priority(&reasons, scores.novelty[row], scores.threshold);
+                Candidate {
+                    row,
+                    reasons,
+                    priority,
+                }
+            })
+            .collect();
+        let candidates = pool.len();
+        pool.sort_by(|a, b| b.priority.total_cmp(&a.priority).then(a.row.cmp(&b.row)));
+        pool.truncate(settings.pool_factor.max(1) * settings.budget);
+        let inv_scale: Vec<f32> = scores.scale.iter().map(|s| 1.0 / s).collect();
+        let dim = steps.state_dim;
+        let mut points = Vec::with_capacity(pool.len() * dim);
+        for c in &pool {
+            points.extend(
+                steps
+                    .state(c.row)
+                    .iter()
+                    .zip(&inv_scale)
+                    .map(|(x, i)| x * i),
+            );
+        }
+        Planner {
+            pool,
+            points,
+            dim,
+            inv_scale,
+            candidates,
+            settings: settings.clone(),
+        }
+    }
+
+    /// Chooses the list given the raw (unscaled, row-major) states that already have
+    /// corrections.
+    pub fn plan(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        corrected_states: &[f32],
+    ) -> ReviewList {
+        let mut cover = Cover::new(&self.points, self.dim);
+        let mut scaled = vec![0.0f32; self.dim];
+        for c in corrected_states.chunks_exact(self.dim.max(1)) {
+            for ((o, x), i) in scaled.iter_mut().zip(c).zip(&self.inv_scale) {
+                *o = x * i;
+            }
+            cover.add_center(&scaled);
+        }
+        let mut entries = Vec::new();
+        while entries.len() < self.settings.budget {
+            let Some(i) = cover.farthest() else { break };
+            let distance = cover.distance(i);
+            if distance <= self.settings.min_distance {
+                break;
+            }
+            cover.pick(i);
+            self.drop_near(&mut cover, steps, i);
+            entries.push(self.entry(steps, scores, i, distance, entries.len()));
+        }
+        entries.sort_by(|a, b| b.priority.total_cmp(&a.priority).then(a.row.cmp(&b.row)));
+        ReviewList {
+            entries,
+            covering_radius: cover.radius(),
+            candidates: self.candidates,
+            pool: self.pool.len(),
+        }
+    }
+
+    fn drop_near(&self, cover: &mut Cover<'_>, steps: &StepTable, i: usize) {
+        let row = self.pool[i].row;
+        let (e, t) = (steps.episode_of(row), steps.t[row]);
+        for (j, c) in self.pool.iter().enumerate() {
+            if cover.is_alive(j)
+                && steps.episode_of(c.row) == e
+                && (steps.t[c.row] - t).unsigned_abs() < self.settings.min_gap as u64
+            {
+                cover.drop_candidate(j);
+            }
+        }
+    }
+
+    fn entry(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        i: usize,
+        distance: f32,
+        pick: usize,
+    ) -> ReviewEntry {
+        let c = &self.pool[i];
+        ReviewEntry {
+            pick,
+            row: c.row,
+            episode: steps.episode_of(c.row),
+            t: steps.t[c.row],
+            reasons: c.reasons.clone(),
+            priority: c.priority,
+            novelty: scores.novelty[c.row],
+            p_value: scores.p_value[c.row],
+            action_gap: scores.action_gap[c.row],
+            distance,
+        }
+    }
+}
+
+/// Plans a review list in one call (see [`Planner`] for cheap re-planning).
+pub fn plan(
+    steps: &StepTable,
+    scores: &RoundScores,
+    corrected_states: &[f32],
+    settings: &PlanSettings,
+) -> ReviewList {
+    Planner::new(steps, scores, settings).plan(steps, scores, corrected_states)
+}
+
+/// Raw states of some rows of a table, row-major: the `corrected_states` argument of
+/// [`plan`] for corrections made on this round's steps.
+pub fn states_of_rows(steps: &StepTable, rows: &[usize]) -> Vec<f32> {
+    rows.iter()
+        .flat_map(|&r| steps.state(r).iter().copied())
+        .collect()
+}

@@ -1,0 +1,71 @@
+//! Saved review lists: `analysis/<round>/review-list.jsonl` in the campaign folder.
+//!
+//! One JSON object per line, by priority: `{"rank": 1, "pick": 4, "episode": "...", "t": 12,
+//! "reasons": ["onset", "peak"], "priority": 1.73, "novelty": 2.41, "p_value": 0.0012,
+//! "action_gap": 0.31, "distance": 3.2}`. `pick` is the order of the diversity selection;
+//! `distance` is the scaled distance to the nearest
+//! correction or earlier entry when the entry was picked (`null` for a first pick with no
+//! correction). Planning again replaces the file (written beside it, then renamed).
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use serde_json::json;
+
+use super::plan::ReviewList;
+use crate::campaign::StepTable;
+use crate::novelty::NoveltyError;
+use crate::novelty::store::{round_dir, write_atomic};
+
+/// File name of a round's review list.
+pub const REVIEW_LIST_FILE: &str = "review-list.jsonl";
+
+/// `analysis/<round>/review-list.jsonl` of a campaign.
+pub fn review_list_path(root: &Path, round: u32) -> PathBuf {
+    round_dir(root, round).join(REVIEW_LIST_FILE)
+}
+
+fn finite(x: f32) -> serde_json::Value {
+    if x.is_finite() {
+        json!(x)
+    } else {
+        serde_json::Value::Null
+    }
+}
+
+/// Writes the list as JSON Lines to any writer.
+pub fn write_review_list<W: Write>(
+    steps: &StepTable,
+    list: &ReviewList,
+    mut w: W,
+) -> std::io::Result<()> {
+    for (i, e) in list.entries.iter().enumerate() {
+        let line = json!({
+            "rank": i + 1,
+            "pick": e.pick,
+            "episode": steps.episodes[e.episode].name,
+            "t": e.t,
+            "reasons": e.reasons.iter().map(|r| r.as_str()).collect::<Vec<_>>(),
+            "priority": finite(e.priority),
+            "novelty": finite(e.novelty),
+            "p_value": finite(e.p_value),
+            "action_gap": finite(e.action_gap),
+            "distance": finite(e.distance),
+        });
+        serde_json::to_writer(&mut w, &line)?;
+        w.write_all(b"\n")?;
+    }
+    w.flush()
+}
+
+/// Saves a round's review list and returns the path.
+pub fn save_review_list(
+    root: &Path,
+    round: u32,
+    steps: &StepTable,
+    list: &ReviewList,
+) -> Result<PathBuf, NoveltyError> {
+    let path = review_list_path(root, round);
+    write_atomic(&path, |w| write_review_list(steps, list, w))?;
+    Ok(path)
+}

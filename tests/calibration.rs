@@ -1,0 +1,78 @@
+//! The calibration keeps its promise on fresh expert episodes, and excursion onsets are found
+//! where learner episodes leave expert territory.
+
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
+use countersteer::novelty::synth::{SynthSpec, campaign, drift_onset, trajectories};
+use countersteer::novelty::{build_model, score_round};
+use countersteer::progress::Progress;
+use countersteer::review::{ExcursionSettings, excursions};
+
+const ALPHA: f64 = 0.05;
+
+/// Margin of the flag share: the share of flagged steps over `m_fresh` fresh episodes has a
+/// standard error of at most sqrt(alpha (1 - alpha) / m_fresh) even when steps within an
+/// episode are perfectly correlated (each episode's share lies in [0, 1] with mean <= alpha),
+/// and the calibration made from `m_cal` held-out episodes adds the same kind of error. Three
+/// standard errors of the sum keep a false failure below about 0.2%.
+fn margin(m_fresh: usize, m_cal: usize) -> f64 {
+    3.0 * (ALPHA * (1.0 - ALPHA)).sqrt() * (1.0 / m_fresh as f64 + 1.0 / m_cal as f64).sqrt()
+}
+
+#[test]
+fn flag_share_on_fresh_expert_episodes_is_at_most_alpha_plus_margin() {
+    let demos = trajectories(&SynthSpec::expert(100, 150, 8, 21));
+    let fresh = trajectories(&SynthSpec::expert(60, 150, 8, 22));
+    let c = campaign(demos, fresh, 5, ALPHA);
+    let p = Progress::new();
+    let model = build_model(&c, &p).unwrap();
+    let s = score_round(&model, &c, &c.rounds[0].steps, &p).unwrap();
+    let share = s.flagged_count() as f64 / s.len() as f64;
+    let m = margin(60, model.split().calibration.len());
+    eprintln!("flag share {share:.4}, bound {:.4}", ALPHA + m);
+    assert!(share <= ALPHA + m, "share {share} > {ALPHA} + {m}");
+}
+
+#[test]
+fn excursion_onsets_are_found_where_drifting_episodes_leave_expert_territory() {
+    let mut expert = SynthSpec::expert(100, 150, 8, 21);
+    expert.latent = 3;
+    let demos = trajectories(&expert);
+    let mut learner = SynthSpec {
+        seed: 23,
+        episodes: 20,
+        drift: 0.1,
+        ..expert
+    };
+    learner.prefix = "learner".into();
+    let steps = trajectories(&learner);
+    let c = campaign(demos, steps, 5, ALPHA);
+    let p = Progress::new();
+    let model = build_model(&c, &p).unwrap();
+    let steps = &c.rounds[0].steps;
+    let s = score_round(&model, &c, steps, &p).unwrap();
+    let ex = excursions(steps, &s, &ExcursionSettings::default());
+    let drift = drift_onset(150);
+    for (e, ep) in steps.episodes.iter().enumerate() {
+        // Where the episode leaves expert territory for good: the first step after which its
+        // novelty stays above the flag threshold.
+        let rows: Vec<usize> = ep.rows().collect();
+        let out = rows
+            .iter()
+            .rposition(|&r| s.novelty[r] <= s.threshold)
+            .map_or(0, |i| i + 1);
+        assert!(out > drift && out < 150, "{}: leaves at {out}", ep.name);
+        let x = ex
+            .iter()
+            .find(|x| x.episode == e && x.onset <= ep.start + out && x.end >= ep.start + out)
+            .unwrap_or_else(|| panic!("{}: no excursion holds step {out}", ep.name));
+        let onset = x.onset - ep.start;
+        // Found no earlier than 5 steps before the drift starts and no later than 5 steps
+        // after the episode has left for good (hysteresis may open it a little early).
+        assert!(
+            onset + 5 >= drift && onset <= out + 5,
+            "{}: onset {onset}, drift {drift}, out {out}",
+            ep.name
+        );
+    }
+}

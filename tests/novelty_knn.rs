@@ -1,0 +1,106 @@
+//! k-nearest-neighbour search checked against a brute-force oracle and against scipy.
+
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
+use countersteer::novelty::index::{KnnIndex, MAX_TREE_DIM};
+use countersteer::novelty::query::{brute_knn, knn_rows};
+use countersteer::novelty::synth::{Rng, SynthSpec, trajectories};
+use countersteer::progress::Progress;
+
+fn check_against_brute_force(dim: usize) {
+    let mut spec = SynthSpec::expert(6, 150, dim, 11);
+    spec.latent = 4.min(dim);
+    let demos = trajectories(&spec);
+    let mut rng = Rng::new(dim as u64);
+    let inv: Vec<f32> = (0..dim).map(|_| 0.5 + rng.uniform() as f32).collect();
+    let rows: Vec<u32> = (0..demos.len() as u32).collect();
+    let index = KnnIndex::build(&demos.states, dim, &inv, &rows).unwrap();
+    let mut hits = Vec::new();
+    for _ in 0..40 {
+        let base = (rng.uniform() * demos.len() as f64) as usize;
+        let q: Vec<f32> = demos
+            .state(base)
+            .iter()
+            .zip(&inv)
+            .map(|(x, i)| x * i + rng.normal() as f32 * 0.3)
+            .collect();
+        let want = brute_knn(&demos.states, dim, &inv, &q, 5);
+        index.knn(&q, 5, f32::INFINITY, &mut hits);
+        assert_eq!(hits.len(), 5, "dim {dim}");
+        for (h, w) in hits.iter().zip(&want) {
+            assert!(
+                (h.1 - w.1).abs() <= 1e-4 * w.1.max(1e-3),
+                "dim {dim}: {h:?} vs {w:?}"
+            );
+        }
+        // A deliberately too small bound still gives the exact answer (second search).
+        index.knn(&q, 5, want[0].1.sqrt() * 0.5, &mut hits);
+        assert!((hits[4].1 - want[4].1).abs() <= 1e-4 * want[4].1.max(1e-3));
+    }
+}
+
+#[test]
+fn knn_equals_brute_force_in_every_dispatched_size() {
+    // 3 and 5 are padded (to 4 and 8), 16 exact, 32 the largest tree, 40 the subspace path.
+    for dim in [2, 3, 5, 16, MAX_TREE_DIM, 40] {
+        check_against_brute_force(dim);
+    }
+}
+
+#[test]
+fn seeded_chains_give_the_same_neighbours_as_plain_queries() {
+    let demos = trajectories(&SynthSpec::expert(8, 200, 6, 3));
+    let mut roll = SynthSpec::expert(3, 200, 6, 4);
+    roll.drift = 0.02;
+    let steps = trajectories(&roll);
+    let inv = vec![1.0; 6];
+    let rows: Vec<u32> = (0..demos.len() as u32).collect();
+    let index = KnnIndex::build(&demos.states, 6, &inv, &rows).unwrap();
+    let all: Vec<usize> = (0..steps.len()).collect();
+    let p = Progress::new();
+    let seeded = knn_rows(&index, &inv, &steps, &all, 5, true, "", &p).unwrap();
+    let plain = knn_rows(&index, &inv, &steps, &all, 5, false, "", &p).unwrap();
+    for (a, b) in seeded.iter().zip(&plain) {
+        assert!((a.1 - b.1).abs() <= 1e-5 * b.1.max(1e-3), "{a:?} vs {b:?}");
+    }
+}
+
+#[derive(serde::Deserialize)]
+struct ScipyFixture {
+    scipy: String,
+    k: usize,
+    cases: Vec<ScipyCase>,
+}
+
+#[derive(serde::Deserialize)]
+struct ScipyCase {
+    dim: usize,
+    points: Vec<Vec<f32>>,
+    queries: Vec<Vec<f32>>,
+    distances: Vec<Vec<f64>>,
+}
+
+#[test]
+fn knn_distances_equal_scipy_ckdtree() {
+    // Source: scipy.spatial.cKDTree.query, fixture made by tests/fixtures/knn_scipy.py.
+    let text = std::fs::read_to_string("tests/fixtures/knn_scipy.json").unwrap();
+    let f: ScipyFixture = serde_json::from_str(&text).unwrap();
+    assert_eq!(f.scipy, "1.17.1");
+    for c in &f.cases {
+        let flat: Vec<f32> = c.points.iter().flatten().copied().collect();
+        let rows: Vec<u32> = (0..c.points.len() as u32).collect();
+        let index = KnnIndex::build(&flat, c.dim, &vec![1.0; c.dim], &rows).unwrap();
+        let mut hits = Vec::new();
+        for (q, want) in c.queries.iter().zip(&c.distances) {
+            index.knn(q, f.k, f32::INFINITY, &mut hits);
+            for (h, w) in hits.iter().zip(want) {
+                let got = f64::from(h.1).sqrt();
+                assert!(
+                    (got - w).abs() <= 1e-5 * w.max(1.0),
+                    "dim {}: {got} vs scipy {w}",
+                    c.dim
+                );
+            }
+        }
+    }
+}

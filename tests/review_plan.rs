@@ -1,0 +1,138 @@
+//! The review list: budget, minimum gap, no re-asking near corrections, and the saved files.
+
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
+use countersteer::campaign::StepTable;
+use countersteer::novelty::store::{load_scores, save_scores};
+use countersteer::novelty::synth::{SynthSpec, campaign, trajectories};
+use countersteer::novelty::{RoundScores, build_model, score_round};
+use countersteer::progress::Progress;
+use countersteer::review::kcenter::dist;
+use countersteer::review::{PlanSettings, Planner, Reason, plan, states_of_rows};
+
+fn scored() -> (StepTable, RoundScores) {
+    let mut expert = SynthSpec::expert(40, 120, 6, 31);
+    expert.latent = 3;
+    let demos = trajectories(&expert);
+    let mut learner = SynthSpec {
+        seed: 32,
+        episodes: 20,
+        drift: 0.08,
+        ..expert
+    };
+    learner.prefix = "learner".into();
+    let mut steps = trajectories(&learner);
+    // The expert takes over from step 100 of every other episode.
+    steps.interventions = (0..steps.len())
+        .map(|r| steps.episode_of(r).is_multiple_of(2) && steps.t[r] >= 100)
+        .collect();
+    let c = campaign(demos, steps, 5, 0.05);
+    let p = Progress::new();
+    let model = build_model(&c, &p).unwrap();
+    let s = score_round(&model, &c, &c.rounds[0].steps, &p).unwrap();
+    (c.rounds[0].steps.clone(), s)
+}
+
+fn scaled(steps: &StepTable, s: &RoundScores, row: usize) -> Vec<f32> {
+    steps
+        .state(row)
+        .iter()
+        .zip(&s.scale)
+        .map(|(x, k)| x / k)
+        .collect()
+}
+
+#[test]
+fn review_list_respects_budget_gap_and_corrections() {
+    let (steps, s) = scored();
+    let settings = PlanSettings {
+        budget: 12,
+        min_gap: 8,
+        ..Default::default()
+    };
+    let planner = Planner::new(&steps, &s, &settings);
+    let first = planner.plan(&steps, &s, &[]);
+    assert_eq!(first.entries.len(), 12);
+    assert!(
+        first
+            .entries
+            .iter()
+            .any(|e| e.reasons.contains(&Reason::ExcursionOnset))
+    );
+    assert!(
+        first
+            .entries
+            .iter()
+            .any(|e| e.reasons.contains(&Reason::BeforeIntervention))
+    );
+    // The expert corrects the first five entries; the new list must not ask again near them.
+    let corrected: Vec<usize> = first.entries.iter().take(5).map(|e| e.row).collect();
+    let states = states_of_rows(&steps, &corrected);
+    let again = planner.plan(&steps, &s, &states);
+    assert!(again.entries.len() <= 12);
+    for e in &again.entries {
+        assert!(!corrected.contains(&e.row));
+        for &c in &corrected {
+            let d = dist(&scaled(&steps, &s, e.row), &scaled(&steps, &s, c));
+            assert!(
+                d >= again.covering_radius,
+                "entry {} is {d} from correction {c}, radius {}",
+                e.row,
+                again.covering_radius
+            );
+        }
+    }
+    for list in [&first, &again] {
+        for (i, a) in list.entries.iter().enumerate() {
+            for b in &list.entries[i + 1..] {
+                if a.episode == b.episode {
+                    assert!(
+                        (a.t - b.t).abs() >= 8,
+                        "rows {} and {} too close",
+                        a.row,
+                        b.row
+                    );
+                }
+            }
+        }
+    }
+    // Same inputs, same list; the one-call form agrees with the planner.
+    assert_eq!(plan(&steps, &s, &states, &settings), again);
+}
+
+#[test]
+fn min_distance_stops_the_list_when_the_ground_is_covered() {
+    let (steps, s) = scored();
+    let settings = PlanSettings {
+        budget: 1000,
+        min_distance: f32::MAX,
+        ..Default::default()
+    };
+    let corrected = states_of_rows(&steps, &[0]);
+    assert!(plan(&steps, &s, &corrected, &settings).entries.is_empty());
+}
+
+#[test]
+fn saved_scores_read_back_identically() {
+    let (steps, s) = scored();
+    let dir = tempfile::tempdir().unwrap();
+    let path = save_scores(dir.path(), 3, &steps, &s).unwrap();
+    assert!(path.ends_with("analysis/3/scores.npz"));
+    let back = load_scores(dir.path(), 3, &steps).unwrap();
+    assert_eq!(back.novelty, s.novelty);
+    assert_eq!(back.flagged, s.flagged);
+    assert_eq!(back.neighbours, s.neighbours);
+    assert_eq!(back.contributions, s.contributions);
+    assert_eq!(
+        (back.threshold, back.alpha, back.k),
+        (s.threshold, s.alpha, s.k)
+    );
+    assert!(back.ensemble_spread.iter().all(|x| x.is_nan()));
+    // A round that changed since it was scored is refused with the file and array named.
+    let mut shorter = steps.clone();
+    shorter.t.pop();
+    let err = load_scores(dir.path(), 3, &shorter)
+        .unwrap_err()
+        .to_string();
+    assert!(err.contains("scores.npz") && err.contains("`t`"), "{err}");
+}
