@@ -120,6 +120,36 @@ impl Ledger {
         self.write(Entry::Correction(correction))
     }
 
+    /// Appends several corrections with one write and one fsync (scripted bulk entry).
+    /// Either all are acknowledged or, on an error, none is kept on disk.
+    pub fn append_all(&mut self, corrections: Vec<Correction>) -> Result<Vec<Record>, LedgerError> {
+        let time = utc_timestamp();
+        let records: Vec<Record> = corrections
+            .into_iter()
+            .enumerate()
+            .map(|(i, c)| Record {
+                seq: self.next_seq + i as u64,
+                entry: Entry::Correction(c),
+                annotator: self.annotator.clone(),
+                time: time.clone(),
+                tool: crate::VERSION.to_string(),
+            })
+            .collect();
+        let bytes: Vec<u8> = records.iter().flat_map(Record::to_line).collect();
+        let written = self
+            .file
+            .write_all(&bytes)
+            .and_then(|()| self.file.sync_data());
+        if let Err(e) = written {
+            let _ = self.file.set_len(self.len);
+            return Err(LedgerError::io(&self.path)(e));
+        }
+        self.len += bytes.len() as u64;
+        self.next_seq += records.len() as u64;
+        self.records.extend(records.iter().cloned());
+        Ok(records)
+    }
+
     /// Retracts an earlier, not yet retracted correction of this ledger (undo).
     pub fn retract(&mut self, seq: u64) -> Result<Record, LedgerError> {
         let is_correction = self
