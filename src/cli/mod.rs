@@ -5,6 +5,7 @@ mod check;
 mod correct;
 mod export;
 mod plan;
+mod demo;
 mod progress_bar;
 mod score;
 mod tally;
@@ -44,6 +45,8 @@ pub enum Command {
     Score(score::ScoreArgs),
     /// Choose the steps of a round the expert should review, under a budget.
     Plan(plan::PlanArgs),
+    /// Write the orchard-rover demo campaign (spec, demonstrations, two rounds, frames).
+    Demo(demo::DemoArgs),
 }
 
 /// Parses the arguments and runs the program.
@@ -59,6 +62,7 @@ pub fn main() -> ExitCode {
         Some(Command::Export(a)) => export::run(a),
         Some(Command::Score(a)) => score::run(a),
         Some(Command::Plan(a)) => plan::run(a),
+        Some(Command::Demo(a)) => demo::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,0 +1,53 @@
+//! `countersteer demo DIR`: write the orchard-rover demo campaign.
+
+use std::path::PathBuf;
+
+use clap::Args;
+
+use super::{CliError, progress_bar::Bar};
+use crate::progress::Progress;
+use crate::sim::{DemoConfig, DemoError, write_demo_campaign};
+
+/// Arguments of `demo`.
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// Folder to create the campaign in (must be new or empty).
+    pub dir: PathBuf,
+    /// Seed of every random draw: the same seed gives the same files.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Episodes in the demonstrations and in each round.
+    #[arg(long, default_value_t = 20, value_parser = clap::value_parser!(u16).range(1..=2000))]
+    pub episodes: u16,
+}
+
+/// Runs `demo`.
+pub fn run(a: DemoArgs) -> Result<(), CliError> {
+    let cfg = DemoConfig {
+        seed: a.seed,
+        episodes: a.episodes as usize,
+        ..DemoConfig::default()
+    };
+    let progress = Progress::new();
+    let result = {
+        let _bar = Bar::follow(&progress);
+        write_demo_campaign(&a.dir, &cfg, &progress)
+    };
+    let summary = result.map_err(|e| match e {
+        DemoError::NotEmpty(_) => CliError::usage(e.to_string()),
+        other => CliError::invalid(other.to_string()),
+    })?;
+    println!("demo campaign written to {}", a.dir.display());
+    for s in &summary.sets {
+        println!(
+            "  {:<15} {:>4} episodes {:>7} steps, {:>3.0}% left the lane, {} intervention steps",
+            s.label,
+            s.episodes,
+            s.steps,
+            100.0 * s.departure_share,
+            s.intervention_steps
+        );
+    }
+    println!("  {} frame images", summary.frames);
+    Ok(())
+}
