@@ -13,6 +13,7 @@ pub mod novelty;
 pub mod progress;
 pub mod review;
 pub mod sim;
+pub mod study;
 
 /// The safety caution carried by the README, the desktop program and every export manifest.
 pub const SAFETY_CAUTION: &str = "Robots and vehicles can hurt people. Corrected data does not \

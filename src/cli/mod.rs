@@ -3,11 +3,12 @@
 
 mod check;
 mod correct;
+mod demo;
 mod export;
 mod plan;
-mod demo;
 mod progress_bar;
 mod score;
+mod study;
 mod tally;
 
 use std::path::{Path, PathBuf};
@@ -47,6 +48,8 @@ pub enum Command {
     Plan(plan::PlanArgs),
     /// Write the orchard-rover demo campaign (spec, demonstrations, two rounds, frames).
     Demo(demo::DemoArgs),
+    /// Compare labelling strategies over several aggregation rounds on the demo scenario.
+    Study(study::StudyArgs),
 }
 
 /// Parses the arguments and runs the program.
@@ -63,6 +66,7 @@ pub fn main() -> ExitCode {
         Some(Command::Score(a)) => score::run(a),
         Some(Command::Plan(a)) => plan::run(a),
         Some(Command::Demo(a)) => demo::run(a),
+        Some(Command::Study(a)) => study::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

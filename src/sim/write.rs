@@ -173,7 +173,12 @@ fn q(v: f64) -> f32 {
 
 /// The step table of a set of episodes; the first `frame_episodes` reference frames under
 /// `frame_dir` (relative to the campaign folder).
-fn table(runs: &[EpisodeRun], frame_dir: &str, frame_episodes: usize, flags: bool) -> StepTable {
+pub fn table(
+    runs: &[EpisodeRun],
+    frame_dir: &str,
+    frame_episodes: usize,
+    flags: bool,
+) -> StepTable {
     let mut b = StepTableBuilder::new(super::FEATURE_COUNT, 2);
     b.begin_source(PathBuf::new());
     for (i, run) in runs.iter().enumerate() {

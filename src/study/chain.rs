@@ -46,8 +46,14 @@ pub fn expected_cost(learner: ChainLearner, eps: f64, t_max: u32) -> f64 {
 }
 
 /// Mean and standard error of the cost over `episodes` simulated episodes.
-pub fn simulate(learner: ChainLearner, eps: f64, t_max: u32, episodes: u32, seed: u64) -> (f64, f64) {
-    let mut rng = crate::sim::rng::Rng::new(seed);
+pub fn simulate(
+    learner: ChainLearner,
+    eps: f64,
+    t_max: u32,
+    episodes: u32,
+    seed: u64,
+) -> (f64, f64) {
+    let mut rng = crate::sim::rng::SplitMix64::new(seed);
     let (mut sum, mut sum_sq) = (0.0, 0.0);
     for _ in 0..episodes {
         let mut off = false;
@@ -107,7 +113,10 @@ mod tests {
             for learner in [ChainLearner::BehaviourCloning, ChainLearner::Aggregated] {
                 let exact = expected_cost(learner, 0.01, t);
                 let (mean, se) = simulate(learner, 0.01, t, 40_000, 7 + i as u64);
-                assert!((mean - exact).abs() < 4.0 * se, "{learner:?} T={t}: {mean} vs {exact} (se {se})");
+                assert!(
+                    (mean - exact).abs() < 4.0 * se,
+                    "{learner:?} T={t}: {mean} vs {exact} (se {se})"
+                );
             }
         }
     }
@@ -117,12 +126,22 @@ mod tests {
     #[test]
     fn cost_grows_quadratically_for_cloning_and_linearly_with_aggregation() {
         let eps = 0.002;
-        let exact = |l| HORIZONS.iter().map(|&t| (t, expected_cost(l, eps, t))).collect::<Vec<_>>();
+        let exact = |l| {
+            HORIZONS
+                .iter()
+                .map(|&t| (t, expected_cost(l, eps, t)))
+                .collect::<Vec<_>>()
+        };
         let bc = log_log_slope(&exact(ChainLearner::BehaviourCloning));
         let agg = log_log_slope(&exact(ChainLearner::Aggregated));
         assert!((1.85..=2.0).contains(&bc), "{bc}");
         assert!((agg - 1.0).abs() < 1e-9, "{agg}");
-        let sim = |l| HORIZONS.iter().map(|&t| (t, simulate(l, eps, t, 60_000, u64::from(t)).0)).collect::<Vec<_>>();
+        let sim = |l| {
+            HORIZONS
+                .iter()
+                .map(|&t| (t, simulate(l, eps, t, 60_000, u64::from(t)).0))
+                .collect::<Vec<_>>()
+        };
         let bc_sim = log_log_slope(&sim(ChainLearner::BehaviourCloning));
         let agg_sim = log_log_slope(&sim(ChainLearner::Aggregated));
         assert!((1.75..=2.1).contains(&bc_sim), "{bc_sim}");

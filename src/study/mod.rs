@@ -12,7 +12,8 @@
 //! * `more-demos`: behaviour cloning with as many extra expert demonstration states as the
 //!   budget (more of the expert's own driving instead of corrections);
 //! * `dagger-all`: every state the learner visited is labelled;
-//! * `random`: uniformly random visited states;
+//! * `random`: uniformly random visited states, as many per round as the review list used
+//!   (the full budget when the review list is not run);
 //! * `top-novelty`: the most novel visited states, no diversity;
 //! * `review-list`: the countersteer review list.
 
@@ -44,8 +45,13 @@ pub enum Strategy {
 
 impl Strategy {
     /// All strategies, in report order.
-    pub const ALL: [Strategy; 5] =
-        [Strategy::MoreDemos, Strategy::DaggerAll, Strategy::Random, Strategy::TopNovelty, Strategy::ReviewList];
+    pub const ALL: [Strategy; 5] = [
+        Strategy::MoreDemos,
+        Strategy::DaggerAll,
+        Strategy::Random,
+        Strategy::TopNovelty,
+        Strategy::ReviewList,
+    ];
 
     /// Short name used in tables, folders and the plot.
     pub fn name(self) -> &'static str {
@@ -137,47 +143,103 @@ pub enum StudyError {
 }
 
 fn step_err(stage: &str) -> impl Fn(String) -> StudyError + '_ {
-    move |message| StudyError::Step { stage: stage.to_string(), message }
+    move |message| StudyError::Step {
+        stage: stage.to_string(),
+        message,
+    }
 }
 
 const EVAL_SET: u64 = 9_000;
 const EXTRA_DEMO_SET: u64 = 5_000;
 
 fn sim_config(cfg: &StudyConfig, episodes: usize) -> DemoConfig {
-    DemoConfig { seed: cfg.seed, episodes, frame_episodes: 0, ..DemoConfig::default() }
+    DemoConfig {
+        seed: cfg.seed,
+        episodes,
+        frame_episodes: 0,
+        ..DemoConfig::default()
+    }
 }
 
 /// Runs the study; the strategies' campaigns are written under `work`.
-pub fn run_study(cfg: &StudyConfig, work: &Path, progress: &Progress) -> Result<Vec<ResultRow>, StudyError> {
+pub fn run_study(
+    cfg: &StudyConfig,
+    work: &Path,
+    progress: &Progress,
+) -> Result<Vec<ResultRow>, StudyError> {
     let demo_cfg = sim_config(cfg, cfg.demo_episodes);
     let demos = label::expert_runs(&demo_cfg, 0, progress);
     let learner0 = label::fit_runs(&demos, demo_cfg.lambda).map_err(step_err("fit"))?;
     let eval_cfg = sim_config(cfg, cfg.eval_episodes);
     let first = evaluate(cfg, &eval_cfg, &learner0, progress);
     let mut rows = Vec::new();
-    for &s in &cfg.strategies {
-        rows.push(ResultRow { strategy: s, round: 0, labels: 0, departure: first.0, lateral: first.1, cost: first.2 });
+    // The review list runs first: random selection then spends exactly what it spent in each
+    // round, so the two are compared at the same number of labels.
+    let mut order = cfg.strategies.clone();
+    order.sort_by_key(|&s| s != Strategy::ReviewList);
+    let mut review_spend: Vec<usize> = Vec::new();
+    for s in order {
+        rows.push(ResultRow {
+            strategy: s,
+            round: 0,
+            labels: 0,
+            departure: first.0,
+            lateral: first.1,
+            cost: first.2,
+        });
         let dir = work.join(s.name());
-        let mut run = label::StrategyRun::create(s, &dir, &demos, learner0.clone()).map_err(step_err("setup"))?;
+        let mut run = label::StrategyRun::create(s, &dir, &demos, learner0.clone())
+            .map_err(step_err("setup"))?;
         for r in 1..=cfg.rounds {
             progress.stage(&format!("{} round {r}", s.name()), 0);
-            run.round(cfg, r, progress)?;
+            let before = run.labels;
+            let budget = match (s, review_spend.get(r - 1)) {
+                (Strategy::Random, Some(&b)) => b,
+                _ => cfg.budget,
+            };
+            run.round(cfg, r, budget, progress)?;
+            if s == Strategy::ReviewList {
+                review_spend.push(run.labels - before);
+            }
             let (d, l, c) = evaluate(cfg, &eval_cfg, &run.learner, progress);
-            rows.push(ResultRow { strategy: s, round: r, labels: run.labels, departure: d, lateral: l, cost: c });
+            rows.push(ResultRow {
+                strategy: s,
+                round: r,
+                labels: run.labels,
+                departure: d,
+                lateral: l,
+                cost: c,
+            });
         }
     }
+    rows.sort_by_key(|r| (Strategy::ALL.iter().position(|&s| s == r.strategy), r.round));
     Ok(rows)
 }
 
 /// Closed-loop evaluation of a learner on the fixed evaluation episodes.
-pub fn evaluate(cfg: &StudyConfig, eval_cfg: &DemoConfig, learner: &Learner, progress: &Progress) -> (Estimate, Estimate, Estimate) {
-    let runs = label::learner_runs(eval_cfg, EVAL_SET, learner, &RolloutConfig::default(), progress);
+pub fn evaluate(
+    cfg: &StudyConfig,
+    eval_cfg: &DemoConfig,
+    learner: &Learner,
+    progress: &Progress,
+) -> (Estimate, Estimate, Estimate) {
+    let runs = label::learner_runs(
+        eval_cfg,
+        EVAL_SET,
+        learner,
+        &RolloutConfig::default(),
+        progress,
+    );
     let pick = |f: &dyn Fn(&EpisodeRun) -> f64| runs.iter().map(f).collect::<Vec<f64>>();
     let dep = pick(&|r| f64::from(u8::from(r.metrics.left_lane)));
     let lat = pick(&|r| r.metrics.mean_abs_lateral);
     let cost = pick(&|r| r.metrics.cost);
     let seed = cfg.seed ^ 0xB007;
-    (bootstrap(&dep, cfg.bootstrap, seed), bootstrap(&lat, cfg.bootstrap, seed + 1), bootstrap(&cost, cfg.bootstrap, seed + 2))
+    (
+        bootstrap(&dep, cfg.bootstrap, seed),
+        bootstrap(&lat, cfg.bootstrap, seed + 1),
+        bootstrap(&cost, cfg.bootstrap, seed + 2),
+    )
 }
 
 /// Mean and 95 % percentile bootstrap interval of `x` (resampling episodes with replacement).
@@ -185,7 +247,11 @@ pub fn bootstrap(x: &[f64], resamples: usize, seed: u64) -> Estimate {
     let n = x.len();
     let mean = x.iter().sum::<f64>() / n.max(1) as f64;
     if n == 0 || resamples == 0 {
-        return Estimate { mean, low: mean, high: mean };
+        return Estimate {
+            mean,
+            low: mean,
+            high: mean,
+        };
     }
     let mut rng = crate::sim::rng::SplitMix64::new(seed);
     let mut means: Vec<f64> = (0..resamples)
@@ -193,7 +259,11 @@ pub fn bootstrap(x: &[f64], resamples: usize, seed: u64) -> Estimate {
         .collect();
     means.sort_by(f64::total_cmp);
     let at = |q: f64| means[((q * (resamples - 1) as f64).round() as usize).min(resamples - 1)];
-    Estimate { mean, low: at(0.025), high: at(0.975) }
+    Estimate {
+        mean,
+        low: at(0.025),
+        high: at(0.975),
+    }
 }
 
 /// Where `countersteer study` writes its results inside a campaign folder.

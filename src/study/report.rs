@@ -11,13 +11,27 @@ const FONT: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
 
 /// Writes the result table as CSV.
 pub fn write_csv<W: Write>(rows: &[ResultRow], mut w: W) -> std::io::Result<()> {
-    writeln!(w, "strategy,round,labels,departure,departure_low,departure_high,lateral_m,lateral_low,lateral_high,cost,cost_low,cost_high")?;
+    writeln!(
+        w,
+        "strategy,round,labels,departure,departure_low,departure_high,lateral_m,lateral_low,lateral_high,cost,cost_low,cost_high"
+    )?;
     for r in rows {
         let (d, l, c) = (r.departure, r.lateral, r.cost);
         writeln!(
             w,
             "{},{},{},{:.4},{:.4},{:.4},{:.4},{:.4},{:.4},{:.3},{:.3},{:.3}",
-            r.strategy.name(), r.round, r.labels, d.mean, d.low, d.high, l.mean, l.low, l.high, c.mean, c.low, c.high
+            r.strategy.name(),
+            r.round,
+            r.labels,
+            d.mean,
+            d.low,
+            d.high,
+            l.mean,
+            l.low,
+            l.high,
+            c.mean,
+            c.low,
+            c.high
         )?;
     }
     Ok(())
@@ -37,14 +51,23 @@ fn colour(s: Strategy) -> RGBColor {
 /// Draws labels spent (log scale) against lane-departure share, one line per strategy with
 /// its 95 % interval as whiskers.
 pub fn write_plot(rows: &[ResultRow], path: &Path) -> Result<(), String> {
-    plotters::style::register_font("sans-serif", FontStyle::Normal, FONT).map_err(|_| "font".to_string())?;
+    plotters::style::register_font("sans-serif", FontStyle::Normal, FONT)
+        .map_err(|_| "font".to_string())?;
     let e = |e: &dyn std::fmt::Display| e.to_string();
     let root = BitMapBackend::new(path, (900, 560)).into_drawing_area();
     root.fill(&WHITE).map_err(|x| e(&x))?;
     let max_labels = rows.iter().map(|r| r.labels).max().unwrap_or(1).max(10) as f64;
-    let max_dep = rows.iter().map(|r| r.departure.high).fold(0.05, f64::max).min(1.0) * 1.1;
+    let max_dep = rows
+        .iter()
+        .map(|r| r.departure.high)
+        .fold(0.05, f64::max)
+        .min(1.0)
+        * 1.1;
     let mut chart = ChartBuilder::on(&root)
-        .caption("Lane departures against expert labels spent", ("sans-serif", 22))
+        .caption(
+            "Lane departures against expert labels spent",
+            ("sans-serif", 22),
+        )
         .margin(14)
         .x_label_area_size(46)
         .y_label_area_size(60)
@@ -65,15 +88,23 @@ pub fn write_plot(rows: &[ResultRow], path: &Path) -> Result<(), String> {
         let c = colour(s);
         let xy = |r: &ResultRow| ((r.labels.max(1)) as f64, r.departure.mean);
         chart
-            .draw_series(LineSeries::new(pts.iter().map(|r| xy(r)), c.stroke_width(2)))
+            .draw_series(LineSeries::new(
+                pts.iter().map(|r| xy(r)),
+                c.stroke_width(2),
+            ))
             .map_err(|x| e(&x))?
             .label(s.name())
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], c.stroke_width(2)));
-        chart.draw_series(pts.iter().map(|r| Circle::new(xy(r), 4, c.filled()))).map_err(|x| e(&x))?;
+        chart
+            .draw_series(pts.iter().map(|r| Circle::new(xy(r), 4, c.filled())))
+            .map_err(|x| e(&x))?;
         chart
             .draw_series(pts.iter().map(|r| {
                 let x = r.labels.max(1) as f64;
-                PathElement::new(vec![(x, r.departure.low), (x, r.departure.high)], c.stroke_width(1))
+                PathElement::new(
+                    vec![(x, r.departure.low), (x, r.departure.high)],
+                    c.stroke_width(1),
+                )
             }))
             .map_err(|x| e(&x))?;
     }
