@@ -3,9 +3,9 @@
 
 mod check;
 mod correct;
+mod demo;
 mod export;
 mod plan;
-mod demo;
 mod progress_bar;
 mod score;
 mod tally;
