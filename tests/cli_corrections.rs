@@ -126,7 +126,7 @@ fn two_annotators_correct_then_tally_and_export_agree_with_the_library() {
     let last = text.lines().last().unwrap();
     assert!(last.starts_with("correction,1,lane-00,3,"), "{last}");
     assert!(last.ends_with(",-0.15,slow,1,2,0.9"), "{last}");
-    assert!(d.join("exports/merged.manifest.json").is_file());
+    assert!(d.join("exports/merged.csv.manifest.json").is_file());
 }
 
 #[test]

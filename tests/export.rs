@@ -69,7 +69,7 @@ fn merged_set_holds_demonstrations_and_consensus_corrections_with_provenance() {
     let on_disk: Manifest =
         serde_json::from_slice(&std::fs::read(manifest_path(&out)).unwrap()).unwrap();
     assert_eq!(on_disk, m);
-    assert!(manifest_path(&out).ends_with("exports/merged.manifest.json"));
+    assert!(manifest_path(&out).ends_with("exports/merged.jsonl.manifest.json"));
 
     let set = read_merged(&out, &common::spec()).unwrap();
     // Row 40 + 4 is round 1 lane-00 t 4: steer median of -0.2 + 0.4 and that + 0.02; speed
@@ -145,6 +145,18 @@ fn every_format_reads_back_to_the_merged_set() {
         let got = read_merged(&out, &common::spec()).unwrap();
         assert_eq!(got, expected, "{format:?}");
     }
+}
+
+#[test]
+fn exports_of_one_name_in_two_formats_keep_their_own_manifests() {
+    let dir = setup(3);
+    let (a, ma) = run(dir.path(), "merged.npz", &ExportOptions::new(Format::Npz));
+    let (b, mb) = run(dir.path(), "merged.csv", &ExportOptions::new(Format::Csv));
+    assert_ne!(manifest_path(&a), manifest_path(&b));
+    let read = |p: &Path| -> Manifest {
+        serde_json::from_slice(&std::fs::read(manifest_path(p)).unwrap()).unwrap()
+    };
+    assert_eq!((read(&a), read(&b)), (ma, mb));
 }
 
 #[test]

@@ -158,7 +158,7 @@ fn print_open_report(report: &OpenReport) {
 
 /// Loads a campaign for a subcommand, printing its problems on failure.
 pub fn load(dir: &Path) -> Result<Campaign, CliError> {
-    let root = campaign_dir(&dir.to_path_buf())?;
+    let root = campaign_dir(dir)?;
     load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
         if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
             for p in problems {

@@ -37,7 +37,7 @@ pub enum WeightingArg {
 pub struct ExportArgs {
     /// Campaign folder (holds campaign.json).
     pub dir: PathBuf,
-    /// The merged-set file to write; the manifest goes beside it (`<stem>.manifest.json`).
+    /// The merged-set file to write; the manifest goes beside it (`<file name>.manifest.json`).
     #[arg(long)]
     pub out: PathBuf,
     /// File format (default: from the extension of --out).

@@ -96,13 +96,12 @@ pub struct Manifest {
     pub safety: String,
 }
 
-/// The manifest's path for a merged-set path: `merged.npz` gives `merged.manifest.json`.
+/// The manifest's path for a merged-set path: `merged.npz` gives `merged.npz.manifest.json`
+/// (the whole file name, so that exports of one name in several formats keep their own).
 pub fn manifest_path(out: &Path) -> PathBuf {
-    let stem = out
-        .file_stem()
-        .map(|s| s.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    out.with_file_name(format!("{stem}.manifest.json"))
+    let mut name = out.file_name().unwrap_or_default().to_os_string();
+    name.push(".manifest.json");
+    out.with_file_name(name)
 }
 
 fn rel_name(root: &Path, p: &Path) -> String {

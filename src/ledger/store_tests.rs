@@ -187,3 +187,22 @@ fn bad_annotator_names_never_reach_the_file_system() {
     assert!(matches!(err, LedgerError::BadAnnotator { .. }));
     assert!(!dir.path().join("ledgers").exists());
 }
+
+#[test]
+fn append_all_acknowledges_several_records_with_consecutive_sequence_numbers() {
+    let dir = tempfile::tempdir().unwrap();
+    let (mut l, _) = Ledger::open(dir.path(), "ana").unwrap();
+    l.append(correction(1, Verdict::Skip)).unwrap();
+    let batch = l
+        .append_all(vec![
+            correction(2, Verdict::Skip),
+            correction(3, Verdict::Unrecoverable),
+        ])
+        .unwrap();
+    assert_eq!(batch.iter().map(|r| r.seq).collect::<Vec<_>>(), [2, 3]);
+    assert_eq!(l.next_seq(), 4);
+    drop(l);
+    let (l, report) = Ledger::open(dir.path(), "ana").unwrap();
+    assert_eq!(report.records, 3);
+    assert_eq!(&l.records()[1..], batch.as_slice());
+}
