@@ -81,7 +81,7 @@ fn review_list_recovers_like_full_dagger_with_a_fraction_of_the_labels() {
         assert!(
             dir.path()
                 .join(s)
-                .join("exports/merged-02.manifest.json")
+                .join("exports/merged-02.npz.manifest.json")
                 .is_file(),
             "{s}"
         );
