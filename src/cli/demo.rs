@@ -19,6 +19,9 @@ pub struct DemoArgs {
     /// Episodes in the demonstrations and in each round.
     #[arg(long, default_value_t = 20, value_parser = clap::value_parser!(u16).range(1..=2000))]
     pub episodes: u16,
+    /// Episodes per round that get top-down frame images.
+    #[arg(long, default_value_t = 1)]
+    pub frame_episodes: u16,
 }
 
 /// Runs `demo`.
@@ -26,6 +29,7 @@ pub fn run(a: DemoArgs) -> Result<(), CliError> {
     let cfg = DemoConfig {
         seed: a.seed,
         episodes: a.episodes as usize,
+        frame_episodes: a.frame_episodes as usize,
         ..DemoConfig::default()
     };
     let progress = Progress::new();

@@ -293,10 +293,12 @@ mod tests {
     #[test]
     fn projection_recovers_offset_points() {
         let lane = Lane::generate(11, &LaneParams::default());
+        // Grid spacing 5 cm: positions are interpolated linearly, so a point 0.9 m off a
+        // curved centreline projects within millimetres.
         for (s, off) in [(5.0, 0.3), (20.0, -0.9), (47.3, 1.1), (70.0, 0.0)] {
             let (x, y) = lane.offset_point(s, off);
             let p = lane.project(x, y, None);
-            assert!((p.s - s).abs() < 1e-3, "s {} vs {s}", p.s);
+            assert!((p.s - s).abs() < 5e-3, "s {} vs {s}", p.s);
             assert!(
                 (p.lateral - off).abs() < 1e-3,
                 "lateral {} vs {off}",

@@ -5,6 +5,9 @@
 //! draws; normal draws use the Box-Muller transform (Box & Muller 1958). Owning the generator
 //! keeps every demo campaign byte-identical for a seed, whatever crate versions say.
 
+/// The scenario's generator under a short name.
+pub type Rng = SplitMix64;
+
 /// SplitMix64: a 64-bit state advanced by a fixed odd increment and mixed on output.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct SplitMix64 {

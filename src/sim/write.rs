@@ -171,8 +171,9 @@ fn q(v: f64) -> f32 {
     ((v * 1e4).round() / 1e4) as f32
 }
 
-/// The step table of a set of episodes; the first `frame_episodes` reference frames under
-/// `frame_dir` (relative to the campaign folder).
+/// The step table of a set of episodes (values rounded to 4 decimals); the first
+/// `frame_episodes` reference frames under `frame_dir` (relative to the campaign folder);
+/// `flags` records every step's intervention flag.
 pub fn table(
     runs: &[EpisodeRun],
     frame_dir: &str,

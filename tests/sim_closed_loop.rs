@@ -1,0 +1,49 @@
+//! Closed loop on fixed seeds: the pure pursuit expert keeps the rover in the lane on every
+//! demonstration episode; the ridge learner fit on them leaves the lane in some episodes
+//! but not all (covariate shift); scripted interventions keep round 2 inside the lane.
+
+use countersteer::progress::Progress;
+use countersteer::sim::{DemoConfig, departure_share, simulate_demo};
+
+#[test]
+fn expert_stays_in_the_lane_and_the_learner_drifts_in_some_episodes() {
+    let mut shares = Vec::new();
+    for seed in [1, 2, 3] {
+        let cfg = DemoConfig {
+            seed,
+            episodes: 12,
+            ..DemoConfig::default()
+        };
+        let run = simulate_demo(&cfg, &Progress::new()).unwrap();
+        for e in &run.demonstrations {
+            assert!(
+                !e.metrics.left_lane,
+                "seed {seed}: expert left the lane in {} (max |offset| {:.3} m)",
+                e.name, e.metrics.max_abs_lateral
+            );
+            assert!(e.metrics.steps > 200, "{} stopped early", e.name);
+        }
+        let learner = departure_share(&run.rounds[0]);
+        let takeover = departure_share(&run.rounds[1]);
+        let interventions: usize = run.rounds[1]
+            .iter()
+            .map(|e| e.metrics.intervention_steps)
+            .sum();
+        println!(
+            "seed {seed}: expert {:.2}, learner {learner:.2}, learner with interventions \
+             {takeover:.2} ({interventions} expert steps)",
+            departure_share(&run.demonstrations)
+        );
+        assert_eq!(takeover, 0.0, "the expert takes over before the lane edge");
+        assert!(interventions > 0);
+        shares.push(learner);
+    }
+    // Some, not all: over the 36 episodes of the seed set the learner leaves the lane in
+    // between 10% and 60% (measured: seeds 1-3 give 0.25, 0.33, 0.00).
+    let mean = shares.iter().sum::<f64>() / shares.len() as f64;
+    println!("learner departure share over the seed set: {mean:.3}");
+    assert!(
+        (0.1..=0.6).contains(&mean),
+        "mean learner departure share {mean}"
+    );
+}
