@@ -21,7 +21,7 @@ pub struct DemoConfig {
     pub seed: u64,
     /// Episodes in the demonstrations and in each round.
     pub episodes: usize,
-    /// Episodes per round that get frame images (the first ones).
+    /// Episodes per round that get frame images (those that strayed furthest from the centreline).
     pub frame_episodes: usize,
     /// Side of the square frame images (pixels).
     pub frame_size: u32,

@@ -1,10 +1,11 @@
 //! Writes the simulated scenario as a campaign folder.
 //!
 //! Layout: `campaign.json`; `demonstrations/expert.jsonl`; `rounds/1/learner.jsonl` (the
-//! learner alone, with ensemble samples and frames for the first episodes);
-//! `rounds/2/takeover.csv` and `rounds/2/takeover.npz` (the learner with scripted
-//! interventions, split over two formats; frames for the first episodes, which are in the
-//! CSV part). During an intervention the recorded action is the expert's.
+//! learner alone, with ensemble samples); `rounds/2/takeover.csv` and
+//! `rounds/2/takeover.npz` (the learner with scripted interventions, split over two
+//! formats). Frames are drawn for the episodes of each round that strayed furthest (in
+//! round 2 from the CSV part, which carries frame paths). During an intervention the
+//! recorded action is the expert's.
 
 use std::fs::{self, File};
 use std::io::{BufWriter, Write};
@@ -171,8 +172,9 @@ fn q(v: f64) -> f32 {
     ((v * 1e4).round() / 1e4) as f32
 }
 
-/// The step table of a set of episodes (values rounded to 4 decimals); the first
-/// `frame_episodes` reference frames under `frame_dir` (relative to the campaign folder);
+/// The step table of a set of episodes (values rounded to 4 decimals); the
+/// `frame_episodes` episodes that strayed furthest from the centreline (see
+/// [`framed_episodes`]) reference frames under `frame_dir` (relative to the campaign folder);
 /// `flags` records every step's intervention flag.
 pub fn table(
     runs: &[EpisodeRun],
@@ -182,6 +184,7 @@ pub fn table(
 ) -> StepTable {
     let mut b = StepTableBuilder::new(super::FEATURE_COUNT, 2);
     b.begin_source(PathBuf::new());
+    let framed = framed_episodes(runs, frame_episodes);
     for (i, run) in runs.iter().enumerate() {
         for s in &run.steps {
             let state: Vec<f32> = s.features.iter().map(|&v| q(v)).collect();
@@ -192,7 +195,7 @@ pub fn table(
                 t: s.t,
                 state: &state,
                 action: &action,
-                frame: (i < frame_episodes).then(|| frame_path(frame_dir, &run.name, s.t)),
+                frame: framed[i].then(|| frame_path(frame_dir, &run.name, s.t)),
                 intervention: flags.then_some(s.intervention),
                 samples: &samples,
                 origin: 0,
@@ -200,6 +203,23 @@ pub fn table(
         }
     }
     b.finish()
+}
+
+/// Which episodes get frames: the `n` with the largest `|lateral_offset|` (ties by order),
+/// so the pictures show the learner in trouble.
+pub fn framed_episodes(runs: &[EpisodeRun], n: usize) -> Vec<bool> {
+    let mut order: Vec<usize> = (0..runs.len()).collect();
+    order.sort_by(|&a, &b| {
+        let (x, y) = (&runs[a].metrics, &runs[b].metrics);
+        y.max_abs_lateral
+            .total_cmp(&x.max_abs_lateral)
+            .then(a.cmp(&b))
+    });
+    let mut out = vec![false; runs.len()];
+    for &i in order.iter().take(n) {
+        out[i] = true;
+    }
+    out
 }
 
 fn frame_path(frame_dir: &str, episode: &str, t: i64) -> String {
@@ -214,7 +234,13 @@ fn write_frames(
 ) -> Result<usize, DemoError> {
     let mut jobs = Vec::new();
     for (r, episodes) in run.rounds.iter().enumerate() {
-        for e in episodes.iter().take(cfg.frame_episodes) {
+        let candidates = if r == 1 {
+            &episodes[..episodes.len().div_ceil(2)] // the CSV part, which carries frames
+        } else {
+            &episodes[..]
+        };
+        let framed = framed_episodes(candidates, cfg.frame_episodes);
+        for (e, _) in candidates.iter().zip(framed).filter(|(_, f)| *f) {
             for s in &e.steps {
                 let rel = frame_path(&format!("rounds/{}/frames", r + 1), &e.name, s.t);
                 jobs.push((rel, &e.lane, s.pose));
