@@ -2,6 +2,8 @@
 //! carries every part of the format, is byte-identical for a seed, and a non-empty folder
 //! is refused.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use std::collections::BTreeMap;
 use std::path::Path;
 use std::process::Command;

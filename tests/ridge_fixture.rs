@@ -2,6 +2,8 @@
 //! `tests/fixtures/ridge/make_ridge_fixture.py` (numpy.linalg.lstsq on the augmented system;
 //! the numpy version is recorded in the file).
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use countersteer::sim::ridge::Ridge;
 use serde_json::Value;
 

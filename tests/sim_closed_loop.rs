@@ -2,6 +2,8 @@
 //! demonstration episode; the ridge learner fit on them leaves the lane in some episodes
 //! but not all (covariate shift); scripted interventions keep round 2 inside the lane.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use countersteer::progress::Progress;
 use countersteer::sim::{DemoConfig, departure_share, simulate_demo};
 

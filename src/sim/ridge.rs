@@ -108,7 +108,7 @@ fn check_shapes(
     outputs: usize,
     weights: Option<&[f64]>,
 ) -> Result<usize, RidgeError> {
-    if inputs == 0 || outputs == 0 || x.len() % inputs != 0 {
+    if inputs == 0 || outputs == 0 || !x.len().is_multiple_of(inputs) {
         return Err(RidgeError::Shape(format!(
             "{} input values for {inputs} inputs",
             x.len()
