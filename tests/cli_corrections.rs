@@ -1,5 +1,7 @@
 //! `countersteer correct`, `tally` and `export` end to end, as separate processes.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 mod campaign_kit;
 use campaign_kit as common;
 

@@ -1,5 +1,7 @@
 //! The merged-set export on a small campaign with two annotators' ledgers.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 mod campaign_kit;
 use campaign_kit as common;
 

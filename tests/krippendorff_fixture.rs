@@ -2,6 +2,8 @@
 //! `tests/fixtures/krippendorff/alpha_fixture.json` was made by `make_fixture.py` beside it
 //! (package and numpy versions are recorded in the fixture's `source`).
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use countersteer::consensus::{Metric, krippendorff_alpha};
 
 #[test]

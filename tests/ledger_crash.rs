@@ -8,6 +8,8 @@
 //!
 //! The child is this test binary itself, re-run with `--exact child_appender`.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 use std::io::{BufRead, BufReader, Write};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};

@@ -1,6 +1,8 @@
 //! The README carries the same safety caution as the export manifests and the desktop program
 //! (`countersteer::SAFETY_CAUTION`), word for word.
 
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
 #[test]
 fn readme_carries_the_shared_safety_caution() {
     let readme =

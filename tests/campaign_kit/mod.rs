@@ -1,4 +1,6 @@
 //! Small campaigns written to temporary folders, shared by the integration tests.
+
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 #![allow(dead_code)]
 
 use std::path::Path;
