@@ -76,3 +76,46 @@ fn excursion_onsets_are_found_where_drifting_episodes_leave_expert_territory() {
         );
     }
 }
+
+/// The same promise on the demo scenario: demonstrations from the orchard-rover simulator, and
+/// fresh expert episodes driven on new lanes (another seed).
+#[test]
+fn flag_share_on_fresh_demo_scenario_expert_episodes_is_at_most_alpha_plus_margin() {
+    use countersteer::novelty::build_model_from;
+    use countersteer::novelty::scale::feature_scales;
+    use countersteer::sim::scenario::run_set;
+    use countersteer::sim::write::table;
+    use countersteer::sim::{DemoConfig, Drivers, Policy, demo_spec};
+    let p = Progress::new();
+    let run = |seed: u64, episodes: usize| {
+        let cfg = DemoConfig {
+            seed,
+            episodes,
+            ..Default::default()
+        };
+        let expert = Drivers {
+            policy: &cfg.expert as &dyn Policy,
+            expert: &cfg.expert,
+            ensemble: None,
+        };
+        table(
+            &run_set(&cfg, 0, &expert, &cfg.rollout, &p),
+            "frames",
+            0,
+            false,
+        )
+    };
+    let demos = run(1, 60);
+    let fresh = run(2, 30);
+    let scale = feature_scales(&demo_spec(), &demos);
+    let model = build_model_from(&demos, scale, 5, ALPHA, &p).unwrap();
+    let s = countersteer::novelty::score_steps(&model, &demos, &demo_spec().actions, &fresh, &p)
+        .unwrap();
+    let share = s.flagged_count() as f64 / s.len() as f64;
+    let m = margin(30, model.split().calibration.len());
+    eprintln!(
+        "demo scenario flag share {share:.4}, bound {:.4}",
+        ALPHA + m
+    );
+    assert!(share <= ALPHA + m, "share {share} > {ALPHA} + {m}");
+}
