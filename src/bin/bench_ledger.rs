@@ -29,10 +29,10 @@ fn arg(name: &str, default: usize) -> usize {
 
 fn quantiles(mut d: Vec<Duration>) -> (f64, f64) {
     d.sort();
-    let ms = |x: Duration| x.as_secs_f64() * 1e3;
+    let us = |x: Duration| x.as_secs_f64() * 1e6;
     (
-        ms(d[d.len() / 2]),
-        ms(d[(d.len() * 99 / 100).min(d.len() - 1)]),
+        us(d[d.len() / 2]),
+        us(d[(d.len() * 99 / 100).min(d.len() - 1)]),
     )
 }
 
@@ -73,8 +73,8 @@ fn bench_appends(dir: &Path, n: usize) {
     let (m, p) = quantiles(with_fsync);
     let (bm, bp) = quantiles(without);
     println!("ledger append, {n} records of {} bytes:", line.len());
-    println!("  Ledger::append (write + fsync)   median {m:8.3} ms   p99 {p:8.3} ms");
-    println!("  baseline write_all, no fsync     median {bm:8.3} ms   p99 {bp:8.3} ms");
+    println!("  Ledger::append (write + fsync)   median {m:9.1} us   p99 {p:9.1} us");
+    println!("  baseline write_all, no fsync     median {bm:9.1} us   p99 {bp:9.1} us");
 }
 
 fn spec() -> Spec {
