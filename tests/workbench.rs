@@ -87,6 +87,7 @@ fn opens_a_campaign_selects_an_episode_and_moves_the_playhead() {
     h.get_by_label("Step forward").click();
     h.step();
     assert_eq!(h.state().ui.step, at + 1);
+    h.step();
     h.get_by_label_contains(&format!("t = {} · step {} of 60", at + 1, at + 2));
 }
 
