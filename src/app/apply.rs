@@ -85,13 +85,18 @@ impl Workbench {
             self.status.error(format!("{}: {n} error(s); the campaign cannot be opened as it is", l.dir.display()));
             return;
         };
+        self.ui.remember_campaign(&l.dir);
+        self.install(c);
+    }
+
+    /// Shows an already loaded campaign (projection and scoring start in the background).
+    pub fn install(&mut self, c: crate::campaign::Campaign) {
         self.status.info(format!(
             "opened `{}`: {} demonstration steps, {} round(s)",
             c.file.name,
             c.demonstrations.len(),
             c.rounds.len()
         ));
-        self.ui.remember_campaign(&l.dir);
         let c = Arc::new(c);
         self.campaign = Some(c.clone());
         (self.demo, self.round_view) = (None, None);
