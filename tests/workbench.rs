@@ -41,7 +41,10 @@ fn opens_a_campaign_selects_an_episode_and_moves_the_playhead() {
     let dir = tempfile::tempdir().unwrap();
     common::rover::write_campaign(dir.path());
     let mut h = harness(dir.path());
-    assert_eq!(h.state().campaign().map(|c| c.file.name.as_str()), Some("orchard lane fixture"));
+    assert_eq!(
+        h.state().campaign().map(|c| c.file.name.as_str()),
+        Some("orchard lane fixture")
+    );
     h.get_by_label_contains("3 episodes · 180 steps");
 
     h.get_by_label("r1-b").click();
@@ -64,7 +67,11 @@ fn opens_a_campaign_selects_an_episode_and_moves_the_playhead() {
     h.key_press(Key::End);
     h.step();
     assert_eq!(h.state().ui.step, 59);
-    assert!(h.state().readout().ends_with("expert in control"), "{}", h.state().readout());
+    assert!(
+        h.state().readout().ends_with("expert in control"),
+        "{}",
+        h.state().readout()
+    );
     h.key_press(Key::Home);
     h.step();
     assert_eq!(h.state().ui.step, 0);
@@ -98,15 +105,43 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
     let mut h = harness(dir.path());
     let n = h.state().table().unwrap().len();
     // Hand-made scores: episode r1-c (rows 120..180) is flagged from step 30 to 39 and 50 to 54.
-    let mut s = RoundSignals { round: 1, k: 2, threshold: 1.0, alpha: 0.05, ..Default::default() };
-    s.novelty = (0..n).map(|r| if (150..160).contains(&r) || (170..175).contains(&r) { 2.5 } else { 0.2 }).collect();
-    s.p_value = s.novelty.iter().map(|&v| if v > 1.0 { 0.01 } else { 0.6 }).collect();
+    let mut s = RoundSignals {
+        round: 1,
+        k: 2,
+        threshold: 1.0,
+        alpha: 0.05,
+        ..Default::default()
+    };
+    s.novelty = (0..n)
+        .map(|r| {
+            if (150..160).contains(&r) || (170..175).contains(&r) {
+                2.5
+            } else {
+                0.2
+            }
+        })
+        .collect();
+    s.p_value = s
+        .novelty
+        .iter()
+        .map(|&v| if v > 1.0 { 0.01 } else { 0.6 })
+        .collect();
     s.flagged = s.novelty.iter().map(|&v| v > 1.0).collect();
     s.neighbour_action = vec![0.1; n * 2];
     s.neighbours = vec![0; n * 2];
     s.excursions = vec![
-        ExcursionRows { episode: 2, onset: 150, peak: 152, end: 159 },
-        ExcursionRows { episode: 2, onset: 170, peak: 171, end: 174 },
+        ExcursionRows {
+            episode: 2,
+            onset: 150,
+            peak: 152,
+            end: 159,
+        },
+        ExcursionRows {
+            episode: 2,
+            onset: 170,
+            peak: 171,
+            end: 174,
+        },
     ];
     h.state_mut().set_signals(s);
     h.step();
@@ -116,7 +151,9 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
     h.key_press(Key::X);
     h.step();
     assert_eq!(h.state().ui.step, 30);
-    h.get_by_label_contains("r1-c · t = 30 · step 31 of 60 · novelty 2.500 (p 0.010, flagged) · in excursion");
+    h.get_by_label_contains(
+        "r1-c · t = 30 · step 31 of 60 · novelty 2.500 (p 0.010, flagged) · in excursion",
+    );
     h.get_by_label_contains("steer: learner");
     h.get_by_label_contains("demonstrations nearby 0.1");
     h.key_press(Key::X);

@@ -41,8 +41,12 @@ impl Workbench {
             .collect();
         let key = |o: Option<f32>| o.unwrap_or(f32::NEG_INFINITY);
         match self.ui.sort {
-            ShelfSort::WorstNovelty => v.sort_by(|a, b| key(b.peak_novelty).total_cmp(&key(a.peak_novelty))),
-            ShelfSort::MostFlagged => v.sort_by(|a, b| key(b.flagged_share).total_cmp(&key(a.flagged_share))),
+            ShelfSort::WorstNovelty => {
+                v.sort_by(|a, b| key(b.peak_novelty).total_cmp(&key(a.peak_novelty)))
+            }
+            ShelfSort::MostFlagged => {
+                v.sort_by(|a, b| key(b.flagged_share).total_cmp(&key(a.flagged_share)))
+            }
             ShelfSort::MostInterventions => v.sort_by(|a, b| b.interventions.cmp(&a.interventions)),
             ShelfSort::Name => v.sort_by(|a, b| a.name.cmp(&b.name)),
         }
@@ -53,7 +57,9 @@ impl Workbench {
         if let Some(r) = self.work.load.take_result() {
             match r {
                 Ok(loaded) => self.on_loaded(loaded),
-                Err(()) => self.status.error("the loader stopped without a result".into()),
+                Err(()) => self
+                    .status
+                    .error("the loader stopped without a result".into()),
             }
         }
         if let Some(Ok(Some(view))) = self.work.demo.take_result() {
@@ -82,7 +88,10 @@ impl Workbench {
         self.status.set_problems(l.problems, l.more);
         let Some(c) = l.campaign else {
             let n = self.status.error_count();
-            self.status.error(format!("{}: {n} error(s); the campaign cannot be opened as it is", l.dir.display()));
+            self.status.error(format!(
+                "{}: {n} error(s); the campaign cannot be opened as it is",
+                l.dir.display()
+            ));
             return;
         };
         self.ui.remember_campaign(&l.dir);
@@ -102,9 +111,21 @@ impl Workbench {
         (self.demo, self.round_view) = (None, None);
         self.signals = Default::default();
         self.density_texture = None;
-        self.work.demo.start("project", "projecting demonstrations", move |p| DemoView::build(&c, p));
-        let round = self.ui.round.filter(|r| self.campaign.as_ref().is_some_and(|c| c.round(*r).is_some()));
-        let last = self.campaign.as_ref().and_then(|c| c.rounds.last()).map(|r| r.number);
+        self.work
+            .demo
+            .start("project", "projecting demonstrations", move |p| {
+                DemoView::build(&c, p)
+            });
+        let round = self.ui.round.filter(|r| {
+            self.campaign
+                .as_ref()
+                .is_some_and(|c| c.round(*r).is_some())
+        });
+        let last = self
+            .campaign
+            .as_ref()
+            .and_then(|c| c.rounds.last())
+            .map(|r| r.number);
         match round.or(last) {
             Some(r) => self.select_round(r),
             None => self.refresh_round(),
@@ -112,17 +133,26 @@ impl Workbench {
     }
 
     fn start_round_view(&mut self) {
-        let (Some(c), Some(d), Some(r)) = (self.campaign.clone(), self.demo.clone(), self.ui.round) else {
+        let (Some(c), Some(d), Some(r)) = (self.campaign.clone(), self.demo.clone(), self.ui.round)
+        else {
             return;
         };
-        self.work.round.start("project-round", "projecting the round", move |p| RoundView::build(&c, &d, r, p));
+        self.work
+            .round
+            .start("project-round", "projecting the round", move |p| {
+                RoundView::build(&c, &d, r, p)
+            });
     }
 
     fn start_scoring(&mut self) {
         let (Some(c), Some(r)) = (self.campaign.clone(), self.ui.round) else {
             return;
         };
-        self.work.score.start("score", "scoring the round", move |p| super::signals::compute(&c, r, p));
+        self.work
+            .score
+            .start("score", "scoring the round", move |p| {
+                super::signals::compute(&c, r, p)
+            });
     }
 
     fn select_round(&mut self, r: u32) {
@@ -162,7 +192,9 @@ impl Workbench {
 
     /// Rebuilds the selected episode's drawing data when the selection or plot width changed.
     pub(super) fn ensure_series(&mut self) {
-        let (Some((episode, _)), Some(round), Some(view)) = (self.episode(), self.ui.round, self.round_view.clone()) else {
+        let (Some((episode, _)), Some(round), Some(view)) =
+            (self.episode(), self.ui.round, self.round_view.clone())
+        else {
             self.series = EpisodeSeries::default();
             return;
         };
@@ -172,12 +204,22 @@ impl Workbench {
         } else {
             0
         };
-        let key = SeriesKey { round, episode, strip_points, scored: signals.is_some() };
+        let key = SeriesKey {
+            round,
+            episode,
+            strip_points,
+            scored: signals.is_some(),
+        };
         if self.series.key == Some(key) {
             return;
         }
         let Some(table) = self.table() else { return };
-        self.series = EpisodeSeries::build(&SeriesInput { table, points: &view.points, signals, key });
+        self.series = EpisodeSeries::build(&SeriesInput {
+            table,
+            points: &view.points,
+            signals,
+            key,
+        });
     }
 
     /// Applies one command.
@@ -202,12 +244,21 @@ impl Workbench {
 
     fn cancel_work(&mut self) {
         let w = &mut self.work;
-        (w.load.cancel(), w.demo.cancel(), w.round.cancel(), w.score.cancel());
+        (
+            w.load.cancel(),
+            w.demo.cancel(),
+            w.round.cancel(),
+            w.score.cancel(),
+        );
         self.status.info("background work cancelled".into());
     }
 
     fn select_episode(&mut self, i: usize) {
-        let Some(name) = self.table().and_then(|t| t.episodes.get(i)).map(|e| e.name.clone()) else {
+        let Some(name) = self
+            .table()
+            .and_then(|t| t.episodes.get(i))
+            .map(|e| e.name.clone())
+        else {
             return;
         };
         if self.ui.episode.as_deref() != Some(&name) {
@@ -219,7 +270,9 @@ impl Workbench {
 
     fn shelf_move(&mut self, d: i32) {
         let order = self.shelf_order();
-        let here = self.episode().and_then(|(i, _)| order.iter().position(|&o| o == i));
+        let here = self
+            .episode()
+            .and_then(|(i, _)| order.iter().position(|&o| o == i));
         let next = match here {
             Some(p) => (p as i64 + d as i64).clamp(0, order.len() as i64 - 1) as usize,
             None => 0,
@@ -247,10 +300,13 @@ impl Workbench {
     }
 
     fn next_excursion(&mut self, forward: bool) {
-        let (Some((ep, e)), Some(row)) = (self.episode(), self.current_row()) else { return };
+        let (Some((ep, e)), Some(row)) = (self.episode(), self.current_row()) else {
+            return;
+        };
         let start = e.start;
         let Some(s) = self.ui.round.and_then(|r| self.signals.for_round(r)) else {
-            self.status.info("no scores yet: excursions appear once the round is scored".into());
+            self.status
+                .info("no scores yet: excursions appear once the round is scored".into());
             return;
         };
         let onsets = s.excursions_of(ep).map(|x| x.onset);
@@ -261,18 +317,28 @@ impl Workbench {
         };
         match target {
             Some(o) => self.ui.step = o - start,
-            None => self.status.info("no further excursion in this episode".into()),
+            None => self
+                .status
+                .info("no further excursion in this episode".into()),
         }
     }
 
     fn pick_folder(&mut self) {
         let (tx, rx) = std::sync::mpsc::channel();
-        let spawned = std::thread::Builder::new().name("countersteer-dialog".into()).spawn(move || {
-            let _ = tx.send(rfd::FileDialog::new().set_title("Open a campaign folder").pick_folder());
-        });
+        let spawned = std::thread::Builder::new()
+            .name("countersteer-dialog".into())
+            .spawn(move || {
+                let _ = tx.send(
+                    rfd::FileDialog::new()
+                        .set_title("Open a campaign folder")
+                        .pick_folder(),
+                );
+            });
         match spawned {
             Ok(_) => self.dialog = Some(rx),
-            Err(e) => self.status.error(format!("cannot open the folder dialog: {e}; type the path instead")),
+            Err(e) => self.status.error(format!(
+                "cannot open the folder dialog: {e}; type the path instead"
+            )),
         }
     }
 }

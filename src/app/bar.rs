@@ -15,12 +15,13 @@ pub fn bar_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             campaign_ui(wb, ui, cmds);
             ui.separator();
             let label = ui.label("Annotator");
-            ui.add(egui::TextEdit::singleline(&mut wb.ui.annotator).desired_width(110.0).hint_text("your name"))
-                .labelled_by(label.id)
-                .on_hover_text("Your name, recorded with your corrections");
-            if ui.button("Keys (F1)").clicked() {
-                cmds.push(Command::ToggleHelp);
-            }
+            ui.add(
+                egui::TextEdit::singleline(&mut wb.ui.annotator)
+                    .desired_width(110.0)
+                    .hint_text("your name"),
+            )
+            .labelled_by(label.id)
+            .on_hover_text("Your name, recorded with your corrections");
         });
         work_ui(wb, ui, cmds);
     });
@@ -41,7 +42,9 @@ fn open_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             ui.label("nothing opened yet");
         }
     });
-    let edit = egui::TextEdit::singleline(&mut wb.typed_path).desired_width(160.0).hint_text("or type a folder path");
+    let edit = egui::TextEdit::singleline(&mut wb.typed_path)
+        .desired_width(130.0)
+        .hint_text("or type a folder path");
     let r = ui.add(edit).accessible_name("Campaign folder path");
     let enter = r.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
     if (ui.button("Open path").clicked() || enter) && !wb.typed_path.trim().is_empty() {
@@ -54,26 +57,43 @@ fn campaign_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
         ui.label("no campaign open");
         return;
     };
-    ui.strong(&c.file.name).on_hover_text(c.root.display().to_string());
+    ui.strong(&c.file.name)
+        .on_hover_text(c.root.display().to_string());
     let current = wb.ui.round.map_or("none".to_string(), |r| r.to_string());
     let label = ui.label("Round");
-    let combo = egui::ComboBox::from_id_salt("round").selected_text(current).show_ui(ui, |ui| {
-        for r in &c.rounds {
-            if ui.selectable_label(wb.ui.round == Some(r.number), r.number.to_string()).clicked() {
-                cmds.push(Command::SelectRound(r.number));
+    let combo = egui::ComboBox::from_id_salt("round")
+        .selected_text(current)
+        .show_ui(ui, |ui| {
+            for r in &c.rounds {
+                if ui
+                    .selectable_label(wb.ui.round == Some(r.number), r.number.to_string())
+                    .clicked()
+                {
+                    cmds.push(Command::SelectRound(r.number));
+                }
             }
-        }
-    });
+        });
     combo.response.labelled_by(label.id);
     ui.label(counts(wb));
 }
 
 fn counts(wb: &Workbench) -> String {
-    let Some(t) = wb.table() else { return String::new() };
+    let Some(t) = wb.table() else {
+        return String::new();
+    };
     let mut s = format!("{} episodes · {} steps", t.episodes.len(), t.len());
-    let flagged = wb.ui.round.and_then(|r| wb.signals.for_round(r)).map(|s| s.flagged.iter().filter(|&&f| f).count());
+    let flagged = wb
+        .ui
+        .round
+        .and_then(|r| wb.signals.for_round(r))
+        .map(|s| s.flagged.iter().filter(|&&f| f).count());
     match flagged {
-        Some(f) => s += &format!(" · {:.1}% flagged", 100.0 * f as f64 / t.len().max(1) as f64),
+        Some(f) => {
+            s += &format!(
+                " · {:.1}% flagged",
+                100.0 * f as f64 / t.len().max(1) as f64
+            )
+        }
         None => s += " · not scored yet",
     }
     s + " · 0 corrections"
@@ -90,11 +110,19 @@ fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     .into_iter()
     .flatten()
     .collect();
-    let Some((label, snap)) = running.first() else { return };
+    let Some((label, snap)) = running.first() else {
+        return;
+    };
     ui.horizontal(|ui| {
         let text = format!("{label}: {}", snap.stage);
-        let bar = egui::ProgressBar::new(snap.fraction()).desired_width(280.0).text(text);
-        ui.add(if snap.total == 0 { bar.animate(true) } else { bar });
+        let bar = egui::ProgressBar::new(snap.fraction())
+            .desired_width(280.0)
+            .text(text);
+        ui.add(if snap.total == 0 {
+            bar.animate(true)
+        } else {
+            bar
+        });
         if running.len() > 1 {
             ui.label(format!("and {} more", running.len() - 1));
         }

@@ -103,7 +103,9 @@ pub fn decode(rel: &str, path: &Path) -> Decoded {
         .components()
         .all(|c| matches!(c, Component::Normal(_) | Component::CurDir));
     if !inside {
-        return Err(format!("frame `{rel}`: the path leaves the campaign folder"));
+        return Err(format!(
+            "frame `{rel}`: the path leaves the campaign folder"
+        ));
     }
     let fail = |e: &dyn std::fmt::Display| format!("frame `{rel}`: {e}");
     let mut reader = image::ImageReader::open(path)

@@ -17,7 +17,11 @@ pub struct Job<T> {
 impl<T: Send + 'static> Job<T> {
     /// Starts `work` on a thread named `countersteer-<name>`. If the thread cannot be started
     /// the job is returned already finished with nothing to deliver.
-    pub fn spawn(name: &str, label: &str, work: impl FnOnce(&Progress) -> T + Send + 'static) -> Self {
+    pub fn spawn(
+        name: &str,
+        label: &str,
+        work: impl FnOnce(&Progress) -> T + Send + 'static,
+    ) -> Self {
         let (tx, rx) = channel();
         let progress = Progress::new();
         let p = progress.clone();
@@ -76,7 +80,12 @@ impl<T> Default for Slot<T> {
 
 impl<T: Send + 'static> Slot<T> {
     /// Replaces whatever runs in the slot with a new job.
-    pub fn start(&mut self, name: &str, label: &str, work: impl FnOnce(&Progress) -> T + Send + 'static) {
+    pub fn start(
+        &mut self,
+        name: &str,
+        label: &str,
+        work: impl FnOnce(&Progress) -> T + Send + 'static,
+    ) {
         self.job = Some(Job::spawn(name, label, work));
     }
 }

@@ -43,21 +43,71 @@ pub const BIG_STEP: i64 = 20;
 
 /// Every binding, in the order the help overlay lists them.
 pub const BINDINGS: &[Binding] = &[
-    bind(Key::Space, NONE, "Space", "play / pause", || Command::TogglePlay),
-    bind(Key::ArrowRight, NONE, "Right", "one step later", || Command::StepBy(1)),
-    bind(Key::ArrowLeft, NONE, "Left", "one step earlier", || Command::StepBy(-1)),
-    bind(Key::ArrowRight, SHIFT, "Shift Right", "20 steps later", || Command::StepBy(BIG_STEP)),
-    bind(Key::ArrowLeft, SHIFT, "Shift Left", "20 steps earlier", || Command::StepBy(-BIG_STEP)),
-    bind(Key::Home, NONE, "Home", "first step", || Command::StepToEnd(false)),
-    bind(Key::End, NONE, "End", "last step", || Command::StepToEnd(true)),
-    bind(Key::X, NONE, "X", "next excursion onset", || Command::NextExcursion(true)),
-    bind(Key::X, SHIFT, "Shift X", "previous excursion onset", || Command::NextExcursion(false)),
-    bind(Key::ArrowDown, NONE, "Down", "next episode in the shelf", || Command::ShelfMove(1)),
-    bind(Key::ArrowUp, NONE, "Up", "previous episode in the shelf", || Command::ShelfMove(-1)),
-    bind(Key::CloseBracket, NONE, "]", "play faster", || Command::Speed(true)),
-    bind(Key::OpenBracket, NONE, "[", "play slower", || Command::Speed(false)),
-    bind(Key::O, Modifiers::COMMAND, "Ctrl O", "open a campaign folder", || Command::PickFolder),
-    bind(Key::F1, NONE, "F1", "show / hide this help", || Command::ToggleHelp),
+    bind(Key::Space, NONE, "Space", "play / pause", || {
+        Command::TogglePlay
+    }),
+    bind(Key::ArrowRight, NONE, "Right", "one step later", || {
+        Command::StepBy(1)
+    }),
+    bind(Key::ArrowLeft, NONE, "Left", "one step earlier", || {
+        Command::StepBy(-1)
+    }),
+    bind(
+        Key::ArrowRight,
+        SHIFT,
+        "Shift Right",
+        "20 steps later",
+        || Command::StepBy(BIG_STEP),
+    ),
+    bind(
+        Key::ArrowLeft,
+        SHIFT,
+        "Shift Left",
+        "20 steps earlier",
+        || Command::StepBy(-BIG_STEP),
+    ),
+    bind(Key::Home, NONE, "Home", "first step", || {
+        Command::StepToEnd(false)
+    }),
+    bind(Key::End, NONE, "End", "last step", || {
+        Command::StepToEnd(true)
+    }),
+    bind(Key::X, NONE, "X", "next excursion onset", || {
+        Command::NextExcursion(true)
+    }),
+    bind(Key::X, SHIFT, "Shift X", "previous excursion onset", || {
+        Command::NextExcursion(false)
+    }),
+    bind(
+        Key::ArrowDown,
+        NONE,
+        "Down",
+        "next episode in the shelf",
+        || Command::ShelfMove(1),
+    ),
+    bind(
+        Key::ArrowUp,
+        NONE,
+        "Up",
+        "previous episode in the shelf",
+        || Command::ShelfMove(-1),
+    ),
+    bind(Key::CloseBracket, NONE, "]", "play faster", || {
+        Command::Speed(true)
+    }),
+    bind(Key::OpenBracket, NONE, "[", "play slower", || {
+        Command::Speed(false)
+    }),
+    bind(
+        Key::O,
+        Modifiers::COMMAND,
+        "Ctrl O",
+        "open a campaign folder",
+        || Command::PickFolder,
+    ),
+    bind(Key::F1, NONE, "F1", "show / hide this help", || {
+        Command::ToggleHelp
+    }),
 ];
 
 /// Commands for the keys pressed this frame. Nothing is taken while a text field has focus.

@@ -37,7 +37,9 @@ pub const DEMO_DIR: &str = "demo-data";
 pub fn demo_campaign() -> Option<PathBuf> {
     let here = PathBuf::from(DEMO_DIR);
     let built = Path::new(env!("CARGO_MANIFEST_DIR")).join(DEMO_DIR);
-    [here, built].into_iter().find(|p| p.join(crate::campaign::folder::CAMPAIGN_FILE).is_file())
+    [here, built]
+        .into_iter()
+        .find(|p| p.join(crate::campaign::folder::CAMPAIGN_FILE).is_file())
 }
 
 /// Which campaign a starting window opens: the one asked for, else the last one, else the demo.
@@ -76,9 +78,12 @@ impl eframe::App for App {
 /// Opens the workbench window and runs it until closed. `open` is a campaign folder to open
 /// instead of the remembered or demo one.
 pub fn run(open: Option<PathBuf>) -> Result<(), RunError> {
-    let no_display = std::env::var_os("DISPLAY").is_none() && std::env::var_os("WAYLAND_DISPLAY").is_none();
+    let no_display =
+        std::env::var_os("DISPLAY").is_none() && std::env::var_os("WAYLAND_DISPLAY").is_none();
     if no_display && cfg!(target_os = "linux") {
-        return Err(RunError::NoDisplay("neither DISPLAY nor WAYLAND_DISPLAY is set".into()));
+        return Err(RunError::NoDisplay(
+            "neither DISPLAY nor WAYLAND_DISPLAY is set".into(),
+        ));
     }
     let options = eframe::NativeOptions {
         renderer: eframe::Renderer::Glow,
@@ -92,11 +97,16 @@ pub fn run(open: Option<PathBuf>) -> Result<(), RunError> {
         texts::TITLE,
         options,
         Box::new(move |cc| {
-            let ui: UiState = cc.storage.and_then(|s| eframe::get_value(s, state::STORAGE_KEY)).unwrap_or_default();
+            let ui: UiState = cc
+                .storage
+                .and_then(|s| eframe::get_value(s, state::STORAGE_KEY))
+                .unwrap_or_default();
             let mut wb = Workbench::new(ui);
             match startup_campaign(open.as_deref(), &wb.ui) {
                 Some(dir) => wb.open(&dir),
-                None => wb.status.info("open a campaign folder to begin (no demo campaign found)".into()),
+                None => wb
+                    .status
+                    .info("open a campaign folder to begin (no demo campaign found)".into()),
             }
             Ok(Box::new(App { wb }))
         }),

@@ -60,14 +60,23 @@ pub struct SeriesInput<'a> {
 }
 
 fn thin(n: usize, keep: usize, point: impl Fn(usize) -> [f64; 2]) -> Vec<PlotPoint> {
-    let idx: Vec<usize> = if keep == 0 { (0..n).collect() } else { lttb_indices(n, keep, &point) };
+    let idx: Vec<usize> = if keep == 0 {
+        (0..n).collect()
+    } else {
+        lttb_indices(n, keep, &point)
+    };
     idx.into_iter().map(|i| PlotPoint::from(point(i))).collect()
 }
 
 impl EpisodeSeries {
     /// Builds the drawing data of one episode.
     pub fn build(input: &SeriesInput<'_>) -> EpisodeSeries {
-        let SeriesInput { table, points, signals, key } = *input;
+        let SeriesInput {
+            table,
+            points,
+            signals,
+            key,
+        } = *input;
         let e = &table.episodes[key.episode];
         let rows = e.rows();
         let ts = &table.t[rows.clone()];
@@ -76,14 +85,22 @@ impl EpisodeSeries {
         let scored = signals.filter(|s| s.novelty.len() >= rows.end && key.scored);
         let ad = table.action_dim;
         let learner = (0..ad)
-            .map(|c| thin(e.len, keep, |i| [time(i), table.actions[(e.start + i) * ad + c] as f64]))
+            .map(|c| {
+                thin(e.len, keep, |i| {
+                    [time(i), table.actions[(e.start + i) * ad + c] as f64]
+                })
+            })
             .collect();
         let (novelty, expert) = match scored {
             Some(s) => (
                 thin(e.len, keep, |i| [time(i), s.novelty[e.start + i] as f64]),
                 (0..ad)
                     .filter(|_| s.neighbour_action.len() >= rows.end * ad)
-                    .map(|c| thin(e.len, keep, |i| [time(i), s.neighbour_action[(e.start + i) * ad + c] as f64]))
+                    .map(|c| {
+                        thin(e.len, keep, |i| {
+                            [time(i), s.neighbour_action[(e.start + i) * ad + c] as f64]
+                        })
+                    })
                     .collect(),
             ),
             None => (Vec::new(), Vec::new()),
@@ -108,12 +125,19 @@ impl EpisodeSeries {
 
 /// The colour value in `0..=1` of each step: novelty relative to twice the flag threshold when
 /// scored (so the threshold sits mid-scale), else the step's share of the episode's time.
-fn colour_value(start: usize, len: usize, signals: Option<&RoundSignals>) -> impl Fn(usize) -> f32 + '_ {
+fn colour_value(
+    start: usize,
+    len: usize,
+    signals: Option<&RoundSignals>,
+) -> impl Fn(usize) -> f32 + '_ {
     let scale = signals.map(|s| {
         if s.threshold > 0.0 {
             2.0 * s.threshold
         } else {
-            s.novelty[start..start + len].iter().copied().fold(f32::MIN_POSITIVE, f32::max)
+            s.novelty[start..start + len]
+                .iter()
+                .copied()
+                .fold(f32::MIN_POSITIVE, f32::max)
         }
     });
     move |i| match (signals, scale) {
@@ -122,12 +146,22 @@ fn colour_value(start: usize, len: usize, signals: Option<&RoundSignals>) -> imp
     }
 }
 
-fn path_runs(start: usize, len: usize, points: &[[f32; 2]], signals: Option<&RoundSignals>, decimate: bool) -> Vec<(u8, Vec<PlotPoint>)> {
+fn path_runs(
+    start: usize,
+    len: usize,
+    points: &[[f32; 2]],
+    signals: Option<&RoundSignals>,
+    decimate: bool,
+) -> Vec<(u8, Vec<PlotPoint>)> {
     if points.len() < start + len || len == 0 {
         return Vec::new();
     }
     let p = |i: usize| [points[start + i][0] as f64, points[start + i][1] as f64];
-    let idx: Vec<usize> = if decimate { lttb_indices(len, PATH_POINTS, p) } else { (0..len).collect() };
+    let idx: Vec<usize> = if decimate {
+        lttb_indices(len, PATH_POINTS, p)
+    } else {
+        (0..len).collect()
+    };
     let value = colour_value(start, len, signals);
     let class = |i: usize| ((value(i) * PATH_CLASSES as f32) as usize).min(PATH_CLASSES - 1) as u8;
     let mut runs: Vec<(u8, Vec<PlotPoint>)> = Vec::new();

@@ -61,12 +61,15 @@ impl RoundSignals {
 
     /// Demonstration rows nearest to a row.
     pub fn neighbours(&self, row: usize) -> &[u32] {
-        self.neighbours.get(row * self.k..(row + 1) * self.k).unwrap_or(&[])
+        self.neighbours
+            .get(row * self.k..(row + 1) * self.k)
+            .unwrap_or(&[])
     }
 
     /// The neighbours' expert action at a row.
     pub fn neighbour_action(&self, row: usize, action_dim: usize) -> Option<&[f32]> {
-        self.neighbour_action.get(row * action_dim..(row + 1) * action_dim)
+        self.neighbour_action
+            .get(row * action_dim..(row + 1) * action_dim)
     }
 
     /// Excursions of one episode, in time order.

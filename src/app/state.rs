@@ -62,8 +62,8 @@ pub struct Layout {
 impl Default for Layout {
     fn default() -> Self {
         Layout {
-            shelf_width: 260.0,
-            strip_height: 300.0,
+            shelf_width: 300.0,
+            strip_height: 340.0,
             show_frame: true,
             frame_share: 0.4,
         }

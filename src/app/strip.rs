@@ -21,16 +21,30 @@ const NOVELTY: Color32 = Color32::from_rgb(220, 200, 90);
 impl Workbench {
     /// What the strip reports about the step under the playhead, in one line.
     pub fn readout(&self) -> String {
-        let (Some((ep, e)), Some(row), Some(t)) = (self.episode(), self.current_row(), self.table()) else {
+        let (Some((ep, e)), Some(row), Some(t)) =
+            (self.episode(), self.current_row(), self.table())
+        else {
             return "no step selected".into();
         };
-        let mut s = format!("{} · t = {} · step {} of {}", e.name, t.t[row], row - e.start + 1, e.len);
+        let mut s = format!(
+            "{} · t = {} · step {} of {}",
+            e.name,
+            t.t[row],
+            row - e.start + 1,
+            e.len
+        );
         if let Some(sig) = self.ui.round.and_then(|r| self.signals.for_round(r))
             && let Some(v) = sig.novelty(row)
         {
             let p = sig.p_value.get(row).copied().unwrap_or(f32::NAN);
-            s += &format!(" · novelty {v:.3} (p {p:.3}{})", if sig.flagged(row) { ", flagged" } else { "" });
-            if sig.excursions_of(ep).any(|x| (x.onset..=x.end).contains(&row)) {
+            s += &format!(
+                " · novelty {v:.3} (p {p:.3}{})",
+                if sig.flagged(row) { ", flagged" } else { "" }
+            );
+            if sig
+                .excursions_of(ep)
+                .any(|x| (x.onset..=x.end).contains(&row))
+            {
                 s += " · in excursion";
             }
         }
@@ -41,14 +55,23 @@ impl Workbench {
     }
 
     fn channel_readout(&self, c: usize) -> String {
-        let (Some(row), Some(t), Some(camp)) = (self.current_row(), self.table(), self.campaign()) else {
+        let (Some(row), Some(t), Some(camp)) = (self.current_row(), self.table(), self.campaign())
+        else {
             return String::new();
         };
         let ch = &camp.spec().actions[c];
-        let mut s = format!("{}: learner {}", ch.name, ch.format_value(t.action(row)[c]));
-        let expert = self.ui.round.and_then(|r| self.signals.for_round(r)).and_then(|sig| sig.neighbour_action(row, t.action_dim));
+        let show = |v: f32| match ch.kind {
+            ChannelKind::Continuous { .. } => format!("{v:.3}"),
+            ChannelKind::Discrete { .. } => ch.format_value(v),
+        };
+        let mut s = format!("{}: learner {}", ch.name, show(t.action(row)[c]));
+        let expert = self
+            .ui
+            .round
+            .and_then(|r| self.signals.for_round(r))
+            .and_then(|sig| sig.neighbour_action(row, t.action_dim));
         if let Some(a) = expert {
-            s += &format!(" · demonstrations nearby {}", ch.format_value(a[c]));
+            s += &format!(" · demonstrations nearby {}", show(a[c]));
         }
         if !ch.unit.is_empty() {
             s += &format!(" [{}]", ch.unit);
@@ -64,6 +87,8 @@ pub fn strip_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) 
         .default_size(wb.ui.layout.strip_height)
         .size_range(160.0..=700.0)
         .show(ui, |ui| {
+            // Fill the panel: egui keeps a panel at the size of its contents.
+            ui.set_min_height(ui.available_height());
             controls_ui(wb, ui, cmds);
             if wb.campaign().is_none() {
                 ui.weak(texts::NOTHING_OPEN);
@@ -105,35 +130,61 @@ fn controls_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 }
 
 fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
-    let (Some((_, e)), Some(table), Some(row)) = (wb.episode(), wb.table(), wb.current_row()) else { return };
+    let (Some((_, e)), Some(table), Some(row)) = (wb.episode(), wb.table(), wb.current_row())
+    else {
+        return;
+    };
     let ts = &table.t[e.rows()];
     let (t0, t1) = (ts[0] as f64, ts[ts.len() - 1] as f64);
     let now = table.t[row] as f64;
     let channels = table.action_dim;
     let h = ui.available_height();
-    let novelty_h = (h * 0.42).max(60.0);
-    let channel_h = ((h - novelty_h) / channels.max(1) as f32 - 18.0).max(36.0);
     let signals = wb.ui.round.and_then(|r| wb.signals.for_round(r));
+    let novelty_h = (h * if signals.is_some() { 0.42 } else { 0.22 }).max(50.0);
+    let channel_h = ((h - novelty_h - 22.0) / channels.max(1) as f32 - 20.0).max(36.0);
     let s = &wb.series;
-    let resp = base_plot("novelty", t0, t1, novelty_h).y_axis_label("novelty").show(ui, |p| {
-        spans_ui(p, &s.interventions, "expert in control", INTERVENTION_FILL);
-        spans_ui(p, &s.excursions, "excursion", EXCURSION_FILL);
-        if let Some(sig) = signals {
-            p.line(Line::new("novelty", s.novelty.as_slice()).color(NOVELTY));
-            p.hline(HLine::new("flag threshold", sig.threshold as f64).color(Color32::from_rgb(200, 90, 80)));
-        } else {
-            p.text(egui_plot::Text::new("hint", egui_plot::PlotPoint::new((t0 + t1) / 2.0, 0.5), texts::NOT_SCORED));
-            p.set_plot_bounds_y(0.0..=1.0);
-        }
-        p.vline(VLine::new("playhead", now).color(Color32::WHITE).width(1.5));
-    });
+    legend_ui(ui);
+    let resp = base_plot("novelty", t0, t1, novelty_h)
+        .y_axis_label("novelty")
+        .show(ui, |p| {
+            spans_ui(p, &s.interventions, "expert in control", INTERVENTION_FILL);
+            spans_ui(p, &s.excursions, "excursion", EXCURSION_FILL);
+            if let Some(sig) = signals {
+                p.line(Line::new("novelty", s.novelty.as_slice()).color(NOVELTY));
+                p.hline(
+                    HLine::new("flag threshold", sig.threshold as f64)
+                        .color(Color32::from_rgb(200, 90, 80)),
+                );
+            } else {
+                p.text(egui_plot::Text::new(
+                    "hint",
+                    egui_plot::PlotPoint::new((t0 + t1) / 2.0, 0.5),
+                    texts::NOT_SCORED,
+                ));
+                p.set_plot_bounds_y(0.0..=1.0);
+            }
+            p.vline(VLine::new("playhead", now).color(Color32::WHITE).width(1.5));
+        });
     scrub(&resp, ts, cmds);
     let Some(camp) = wb.campaign() else { return };
     for (c, ch) in camp.spec().actions.iter().enumerate() {
         ui.small(wb.channel_readout(c));
-        let mut plot = base_plot(format!("channel-{c}"), t0, t1, channel_h).y_axis_label(ch.name.clone());
-        if let ChannelKind::Continuous { low, high } = ch.kind {
-            plot = plot.include_y(low).include_y(high);
+        let mut plot = base_plot(format!("channel-{c}"), t0, t1, channel_h);
+        match &ch.kind {
+            ChannelKind::Continuous { low, high } => plot = plot.include_y(*low).include_y(*high),
+            ChannelKind::Discrete { choices } => {
+                let names = choices.clone();
+                plot = plot
+                    .include_y(0.0)
+                    .include_y((choices.len().max(2) - 1) as f64)
+                    .y_axis_formatter(move |m, _| {
+                        let i = m.value.round();
+                        match names.get(i as usize) {
+                            Some(n) if (m.value - i).abs() < 1e-9 && i >= 0.0 => n.clone(),
+                            _ => String::new(),
+                        }
+                    });
+            }
         }
         let resp = plot.show(ui, |p| {
             spans_ui(p, &s.interventions, "expert in control", INTERVENTION_FILL);
@@ -149,6 +200,22 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     }
 }
 
+fn legend_ui(ui: &mut egui::Ui) {
+    ui.horizontal(|ui| {
+        let key = |ui: &mut egui::Ui, c: Color32, text: &str| {
+            let (r, _) = ui.allocate_exact_size(egui::vec2(10.0, 10.0), egui::Sense::hover());
+            ui.painter().rect_filled(r, 2.0, c);
+            ui.small(text);
+        };
+        key(ui, NOVELTY, "novelty");
+        key(ui, Color32::from_rgb(200, 90, 80), "flag threshold");
+        key(ui, EXCURSION_FILL.to_opaque(), "excursion");
+        key(ui, INTERVENTION_FILL.to_opaque(), "expert in control");
+        key(ui, LEARNER, "learner action");
+        key(ui, EXPERT, "demonstrations nearby");
+    });
+}
+
 fn base_plot<'a>(id: impl egui::AsIdSalt, t0: f64, t1: f64, height: f32) -> Plot<'a> {
     Plot::new(id)
         .height(height)
@@ -161,7 +228,6 @@ fn base_plot<'a>(id: impl egui::AsIdSalt, t0: f64, t1: f64, height: f32) -> Plot
         .allow_double_click_reset(false)
         .show_x(false)
         .set_margin_fraction(egui::vec2(0.0, 0.08))
-        .legend(egui_plot::Legend::default().position(egui_plot::Corner::LeftTop))
 }
 
 fn spans_ui(p: &mut PlotUi<'_>, spans: &[(f64, f64)], name: &str, fill: Color32) {
@@ -176,7 +242,9 @@ fn scrub(resp: &PlotResponse<()>, ts: &[i64], cmds: &mut Vec<Command>) {
     if !(r.is_pointer_button_down_on() || r.clicked()) {
         return;
     }
-    let Some(pos) = r.interact_pointer_pos() else { return };
+    let Some(pos) = r.interact_pointer_pos() else {
+        return;
+    };
     let t = resp.transform.value_from_position(pos).x.round() as i64;
     let i = ts.partition_point(|&x| x < t).min(ts.len() - 1);
     cmds.push(Command::SetStep(i));

@@ -3,7 +3,8 @@
 /// Window title.
 pub const TITLE: &str = "countersteer";
 /// Shown in the map and strip before a campaign is open.
-pub const NOTHING_OPEN: &str = "No campaign open. Use \"Open folder...\" or run `countersteer open DIR`.";
+pub const NOTHING_OPEN: &str =
+    "No campaign open. Use \"Open folder...\" or run `countersteer open DIR`.";
 /// Shown in the strip while a round has no scores.
 pub const NOT_SCORED: &str = "Novelty appears here once the round is scored.";
 /// Shown when the selected round has no episodes.

@@ -53,7 +53,12 @@ pub struct RoundView {
 
 impl RoundView {
     /// Projects a round; `None` when cancelled or when the round does not exist.
-    pub fn build(campaign: &Campaign, demo: &DemoView, round: u32, progress: &Progress) -> Option<RoundView> {
+    pub fn build(
+        campaign: &Campaign,
+        demo: &DemoView,
+        round: u32,
+        progress: &Progress,
+    ) -> Option<RoundView> {
         let table = &campaign.round(round)?.steps;
         let points = demo.projection.project_all(table, progress);
         (!progress.is_cancelled()).then_some(RoundView { round, points })
@@ -90,7 +95,10 @@ pub fn summarize(table: &StepTable, signals: Option<&RoundSignals>) -> Arc<Vec<E
             let interventions = if table.interventions.is_empty() {
                 0
             } else {
-                table.interventions[rows.clone()].iter().filter(|&&b| b).count()
+                table.interventions[rows.clone()]
+                    .iter()
+                    .filter(|&&b| b)
+                    .count()
             };
             let scored = signals.filter(|s| s.novelty.len() >= rows.end);
             EpisodeSummary {
@@ -99,10 +107,14 @@ pub fn summarize(table: &StepTable, signals: Option<&RoundSignals>) -> Arc<Vec<E
                 steps: e.len,
                 interventions,
                 flagged_share: scored.map(|s| {
-                    s.flagged[rows.clone()].iter().filter(|&&f| f).count() as f32 / e.len.max(1) as f32
+                    s.flagged[rows.clone()].iter().filter(|&&f| f).count() as f32
+                        / e.len.max(1) as f32
                 }),
-                peak_novelty: scored.map(|s| s.novelty[rows.clone()].iter().copied().fold(0.0, f32::max)),
-                sparkline: scored.map(|s| sparkline(&s.novelty[rows.clone()])).unwrap_or_default(),
+                peak_novelty: scored
+                    .map(|s| s.novelty[rows.clone()].iter().copied().fold(0.0, f32::max)),
+                sparkline: scored
+                    .map(|s| sparkline(&s.novelty[rows.clone()]))
+                    .unwrap_or_default(),
             }
         })
         .collect();
@@ -118,7 +130,10 @@ pub fn sparkline(values: &[f32]) -> Vec<f32> {
     (0..buckets)
         .map(|b| {
             let (lo, hi) = (b * values.len() / buckets, (b + 1) * values.len() / buckets);
-            values[lo..hi.max(lo + 1)].iter().copied().fold(0.0, f32::max)
+            values[lo..hi.max(lo + 1)]
+                .iter()
+                .copied()
+                .fold(0.0, f32::max)
         })
         .collect()
 }

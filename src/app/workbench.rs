@@ -110,7 +110,9 @@ impl Workbench {
     pub fn open(&mut self, dir: &Path) {
         let dir = dir.to_path_buf();
         self.status.info(format!("opening {}", dir.display()));
-        self.work.load.start("load", "loading campaign", move |p| load(dir, p));
+        self.work
+            .load
+            .start("load", "loading campaign", move |p| load(dir, p));
     }
 
     /// The open campaign.
@@ -144,7 +146,7 @@ impl Workbench {
         let mut cmds = super::keys::commands(ui.ctx());
         self.tick_playback(ui.ctx(), &mut cmds);
         super::bar::bar_ui(self, ui, &mut cmds);
-        super::status::status_ui(self, ui);
+        super::status::status_ui(self, ui, &mut cmds);
         super::strip::strip_ui(self, ui, &mut cmds);
         super::shelf::shelf_ui(self, ui, &mut cmds);
         egui::CentralPanel::default().show(ui, |ui| super::map::centre_ui(self, ui, &mut cmds));
@@ -154,7 +156,8 @@ impl Workbench {
         }
         self.poll_dialog();
         if self.busy() || self.playback.playing || self.frames.busy() || self.dialog.is_some() {
-            ui.ctx().request_repaint_after(std::time::Duration::from_millis(30));
+            ui.ctx()
+                .request_repaint_after(std::time::Duration::from_millis(30));
         }
     }
 

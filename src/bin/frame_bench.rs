@@ -20,14 +20,25 @@ const STATE_DIM: usize = 8;
 
 fn spec() -> Spec {
     let features = (0..STATE_DIM)
-        .map(|i| Feature { name: format!("s{i}"), unit: String::new(), scale: None })
+        .map(|i| Feature {
+            name: format!("s{i}"),
+            unit: String::new(),
+            scale: None,
+        })
         .collect();
     let channel = |name: &str| ActionChannel {
         name: name.into(),
         unit: "rad".into(),
-        kind: ChannelKind::Continuous { low: -1.0, high: 1.0 },
+        kind: ChannelKind::Continuous {
+            low: -1.0,
+            high: 1.0,
+        },
     };
-    Spec { features, actions: vec![channel("steer"), channel("throttle")], position: None }
+    Spec {
+        features,
+        actions: vec![channel("steer"), channel("throttle")],
+        position: None,
+    }
 }
 
 /// A wandering trajectory: deterministic, smooth, different per `seed`.
@@ -40,29 +51,46 @@ fn table(steps: usize, episodes: usize, seed: f32, drift: f32) -> StepTable {
         for i in 0..per {
             let s = i as f32 * 0.001 + seed * (e as f32 + 1.0);
             let d = drift * (i as f32 / per as f32);
-            t.states.extend((0..STATE_DIM).map(|k| (s * (1.0 + k as f32 * 0.3)).sin() * (k as f32 + 1.0) + d));
-            t.actions.extend([(s * 3.0).sin() * 0.5 + d * 0.1, (s * 0.7).cos() * 0.5]);
+            t.states.extend(
+                (0..STATE_DIM).map(|k| (s * (1.0 + k as f32 * 0.3)).sin() * (k as f32 + 1.0) + d),
+            );
+            t.actions
+                .extend([(s * 3.0).sin() * 0.5 + d * 0.1, (s * 0.7).cos() * 0.5]);
             t.t.push(i as i64);
             t.origins.push(i as u64 + 1);
             t.interventions.push(i % 50_000 > 49_000);
         }
-        t.episodes.push(Episode { name: format!("ep-{e}"), start, len: per, source: 0 });
+        t.episodes.push(Episode {
+            name: format!("ep-{e}"),
+            start,
+            len: per,
+            source: 0,
+        });
     }
     t.sources.push(PathBuf::from("synthetic.jsonl"));
     t
 }
 
 fn signals(n: usize) -> RoundSignals {
-    let novelty: Vec<f32> = (0..n).map(|i| 0.5 + ((i as f32) * 0.0007).sin().abs() * 1.5 + ((i * 7919) % 101) as f32 * 0.002).collect();
+    let novelty: Vec<f32> = (0..n)
+        .map(|i| 0.5 + ((i as f32) * 0.0007).sin().abs() * 1.5 + ((i * 7919) % 101) as f32 * 0.002)
+        .collect();
     let flagged: Vec<bool> = novelty.iter().map(|&v| v > 1.6).collect();
     let excursions = (0..n / 20_000)
-        .map(|j| ExcursionRows { episode: 0, onset: j * 20_000, peak: j * 20_000 + 100, end: j * 20_000 + 400 })
+        .map(|j| ExcursionRows {
+            episode: 0,
+            onset: j * 20_000,
+            peak: j * 20_000 + 100,
+            end: j * 20_000 + 400,
+        })
         .collect();
     RoundSignals {
         round: 1,
         k: 5,
         p_value: novelty.iter().map(|&v| (2.0 - v).clamp(0.0, 1.0)).collect(),
-        neighbour_action: (0..n * 2).map(|i| ((i as f32) * 0.0003).sin() * 0.4).collect(),
+        neighbour_action: (0..n * 2)
+            .map(|i| ((i as f32) * 0.0003).sin() * 0.4)
+            .collect(),
         neighbours: (0..n * 5).map(|i| (i * 13 % n) as u32).collect(),
         threshold: 1.6,
         alpha: 0.05,
@@ -84,13 +112,19 @@ fn campaign(steps: usize, demos: usize) -> Campaign {
             novelty: NoveltySettings::default(),
         },
         demonstrations: table(demos, 10, 0.37, 0.0),
-        rounds: vec![Round { number: 1, steps: table(steps, 1, 0.41, 1.5) }],
+        rounds: vec![Round {
+            number: 1,
+            steps: table(steps, 1, 0.41, 1.5),
+        }],
     }
 }
 
 fn raw_input(frame: usize) -> egui::RawInput {
     egui::RawInput {
-        screen_rect: Some(egui::Rect::from_min_size(egui::Pos2::ZERO, egui::vec2(1280.0, 800.0))),
+        screen_rect: Some(egui::Rect::from_min_size(
+            egui::Pos2::ZERO,
+            egui::vec2(1280.0, 800.0),
+        )),
         time: Some(frame as f64 / 60.0),
         predicted_dt: 1.0 / 60.0,
         ..Default::default()
@@ -116,7 +150,13 @@ fn settle(ctx: &egui::Context, wb: &mut Workbench) -> usize {
     i
 }
 
-fn measure(ctx: &egui::Context, wb: &mut Workbench, decimate: bool, frames: usize, from: usize) -> (f64, f64, f64) {
+fn measure(
+    ctx: &egui::Context,
+    wb: &mut Workbench,
+    decimate: bool,
+    frames: usize,
+    from: usize,
+) -> (f64, f64, f64) {
     wb.draw.decimate = decimate;
     let first = frame(ctx, wb, from).as_secs_f64() * 1e3;
     let mut ms: Vec<f64> = (0..frames)
@@ -132,25 +172,48 @@ fn measure(ctx: &egui::Context, wb: &mut Workbench, decimate: bool, frames: usiz
 
 fn arg(name: &str, default: usize) -> usize {
     let args: Vec<String> = std::env::args().collect();
-    args.iter().position(|a| a == name).and_then(|i| args.get(i + 1)).and_then(|v| v.parse().ok()).unwrap_or(default)
+    args.iter()
+        .position(|a| a == name)
+        .and_then(|i| args.get(i + 1))
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(default)
 }
 
 fn main() {
-    let (steps, demos, frames) = (arg("--steps", 1_000_000), arg("--demos", 1_000_000), arg("--frames", 30));
+    let (steps, demos, frames) = (
+        arg("--steps", 1_000_000),
+        arg("--demos", 1_000_000),
+        arg("--frames", 30),
+    );
     let built = Instant::now();
     let c = campaign(steps, demos);
-    println!("synthetic campaign: {demos} demonstration states, one episode of {steps} steps, {STATE_DIM} features ({:.1} s to build)", built.elapsed().as_secs_f64());
+    println!(
+        "synthetic campaign: {demos} demonstration states, one episode of {steps} steps, {STATE_DIM} features ({:.1} s to build)",
+        built.elapsed().as_secs_f64()
+    );
     let ctx = egui::Context::default();
     let mut wb = Workbench::new(UiState::default());
     wb.install(c);
     let t = Instant::now();
     let mut i = settle(&ctx, &mut wb);
-    println!("projection and density in the background: {:.2} s", t.elapsed().as_secs_f64());
+    println!(
+        "projection and density in the background: {:.2} s",
+        t.elapsed().as_secs_f64()
+    );
     wb.set_signals(signals(steps));
     i += settle(&ctx, &mut wb);
-    println!("frame time, {frames} frames each, playhead moving; ms (first frame builds the series)");
-    println!("{:<22} {:>12} {:>10} {:>10}", "mode", "first frame", "median", "p90");
-    for (name, on) in [("decimation on (LTTB)", true), ("decimation off", false), ("decimation on (LTTB)", true)] {
+    println!(
+        "frame time, {frames} frames each, playhead moving; ms (first frame builds the series)"
+    );
+    println!(
+        "{:<22} {:>12} {:>10} {:>10}",
+        "mode", "first frame", "median", "p90"
+    );
+    for (name, on) in [
+        ("decimation on (LTTB)", true),
+        ("decimation off", false),
+        ("decimation on (LTTB)", true),
+    ] {
         let (first, median, p90) = measure(&ctx, &mut wb, on, frames, i);
         i += frames + 1;
         println!("{name:<22} {first:>12.1} {median:>10.2} {p90:>10.2}");
