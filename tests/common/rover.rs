@@ -15,12 +15,20 @@ pub fn spec() -> Spec {
         scale: None,
     };
     Spec {
-        features: vec![f("x", "m"), f("y", "m"), f("heading", "rad"), f("speed", "m/s")],
+        features: vec![
+            f("x", "m"),
+            f("y", "m"),
+            f("heading", "rad"),
+            f("speed", "m/s"),
+        ],
         actions: vec![
             ActionChannel {
                 name: "steer".into(),
                 unit: "rad".into(),
-                kind: ChannelKind::Continuous { low: -0.5, high: 0.5 },
+                kind: ChannelKind::Continuous {
+                    low: -0.5,
+                    high: 0.5,
+                },
             },
             ActionChannel {
                 name: "mode".into(),
@@ -35,7 +43,14 @@ pub fn spec() -> Spec {
 }
 
 /// One episode along a gentle lane curve; `drift` bends it away from the lane over time.
-fn push_episode(t: &mut StepTable, name: &str, len: usize, offset: f32, drift: f32, takeover: Option<usize>) {
+fn push_episode(
+    t: &mut StepTable,
+    name: &str,
+    len: usize,
+    offset: f32,
+    drift: f32,
+    takeover: Option<usize>,
+) {
     let start = t.len();
     for i in 0..len {
         let s = i as f32 * 0.5;
@@ -44,14 +59,20 @@ fn push_episode(t: &mut StepTable, name: &str, len: usize, offset: f32, drift: f
         let heading = (2.0 / 15.0 * (s / 15.0).cos()).atan();
         t.states.extend([x, y, heading, 1.0 + 0.1 * (i % 3) as f32]);
         let steer = (-0.3 * (s / 15.0).sin() + drift * 0.2).clamp(-0.5, 0.5);
-        t.actions.extend([steer, if i % 10 < 7 { 0.0 } else { 1.0 }]);
+        t.actions
+            .extend([steer, if i % 10 < 7 { 0.0 } else { 1.0 }]);
         t.t.push(i as i64);
         t.origins.push((start + i + 1) as u64);
         if let Some(k) = takeover {
             t.interventions.push(i >= k);
         }
     }
-    t.episodes.push(Episode { name: name.into(), start, len, source: 0 });
+    t.episodes.push(Episode {
+        name: name.into(),
+        start,
+        len,
+        source: 0,
+    });
 }
 
 fn fill_flags(t: &mut StepTable) {
@@ -83,7 +104,11 @@ pub fn write_campaign(root: &Path) {
     };
     std::fs::create_dir_all(root.join("demonstrations")).unwrap();
     std::fs::create_dir_all(root.join("rounds/1")).unwrap();
-    std::fs::write(root.join("campaign.json"), serde_json::to_string_pretty(&file).unwrap()).unwrap();
+    std::fs::write(
+        root.join("campaign.json"),
+        serde_json::to_string_pretty(&file).unwrap(),
+    )
+    .unwrap();
     let w = |rel: &str, t: &StepTable, dir: &str| {
         let f = std::fs::File::create(root.join(rel)).unwrap();
         write_jsonl(t, &spec, dir, std::io::BufWriter::new(f)).unwrap();
