@@ -227,6 +227,8 @@ fn base_plot<'a>(id: impl egui::AsIdSalt, t0: f64, t1: f64, height: f32) -> Plot
         .allow_boxed_zoom(false)
         .allow_double_click_reset(false)
         .show_x(false)
+        // One axis width for every strip plot, so their time axes line up under each other.
+        .y_axis_min_width(52.0)
         .set_margin_fraction(egui::vec2(0.0, 0.08))
 }
 
