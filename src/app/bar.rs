@@ -96,7 +96,7 @@ fn counts(wb: &Workbench) -> String {
         }
         None => s += " · not scored yet",
     }
-    s + " · 0 corrections"
+    s
 }
 
 fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {

@@ -120,3 +120,20 @@ pub fn run(open: Option<PathBuf>) -> Result<(), RunError> {
         }
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn startup_prefers_the_asked_folder_then_the_last_one() {
+        let mut remembered = UiState::default();
+        remembered.remember_campaign(Path::new("/data/last"));
+        let asked = startup_campaign(Some(Path::new("/data/asked")), &remembered);
+        assert_eq!(asked.as_deref(), Some(Path::new("/data/asked")));
+        let last = startup_campaign(None, &remembered);
+        assert_eq!(last.as_deref(), Some(Path::new("/data/last")));
+        // First run: whatever demo campaign can be found (none in a bare checkout).
+        assert_eq!(startup_campaign(None, &UiState::default()), demo_campaign());
+    }
+}
