@@ -82,11 +82,14 @@ fn counts(wb: &Workbench) -> String {
         return String::new();
     };
     let mut s = format!("{} episodes · {} steps", t.episodes.len(), t.len());
-    let flagged = wb
-        .ui
-        .round
-        .and_then(|r| wb.signals.for_round(r))
-        .map(|s| s.flagged.iter().filter(|&&f| f).count());
+    // From the shelf summaries: no pass over every row in each frame.
+    let flagged: Option<f32> = wb.ui.round.and_then(|r| wb.signals.for_round(r)).map(|_| {
+        let per = wb
+            .summaries
+            .iter()
+            .map(|e| e.flagged_share.unwrap_or(0.0) * e.steps as f32);
+        per.sum()
+    });
     match flagged {
         Some(f) => {
             s += &format!(
