@@ -130,6 +130,11 @@ fn map_ui(wb: &mut Workbench, ui: &mut egui::Ui) {
     };
     let scored = wb.series.key.is_some_and(|k| k.scored);
     let [xl, yl] = demo.projection.labels.clone();
+    let casing = if dark {
+        Color32::from_gray(150)
+    } else {
+        Color32::from_gray(60)
+    };
     let halo = if dark {
         Color32::from_gray(235)
     } else {
@@ -148,6 +153,14 @@ fn map_ui(wb: &mut Workbench, ui: &mut egui::Ui) {
             } else {
                 texts::PATH_BY_TIME
             };
+            // A pale casing under the path keeps the scale's dark end visible on a dark plot.
+            for (_, pts) in &series.path_runs {
+                p.line(
+                    Line::new(path_name, pts.as_slice())
+                        .color(casing)
+                        .width(4.0),
+                );
+            }
             for (class, pts) in &series.path_runs {
                 p.line(
                     Line::new(path_name, pts.as_slice())
