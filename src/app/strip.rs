@@ -12,8 +12,8 @@ use super::commands::Command;
 use super::texts;
 use super::workbench::Workbench;
 
-const EXCURSION_FILL: Color32 = Color32::from_rgba_premultiplied(90, 80, 20, 60);
-const INTERVENTION_FILL: Color32 = Color32::from_rgba_premultiplied(30, 70, 110, 70);
+const EXCURSION_FILL: Color32 = Color32::from_rgba_premultiplied(60, 54, 16, 40);
+const INTERVENTION_FILL: Color32 = Color32::from_rgba_premultiplied(24, 56, 90, 56);
 const LEARNER: Color32 = Color32::from_rgb(120, 180, 240);
 const EXPERT: Color32 = Color32::from_rgb(240, 170, 60);
 const NOVELTY: Color32 = Color32::from_rgb(220, 200, 90);
@@ -144,8 +144,12 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     let channel_h = ((h - novelty_h - 22.0) / channels.max(1) as f32 - 20.0).max(36.0);
     let s = &wb.series;
     legend_ui(ui);
+    // Bounds by `include_y`, never by setting them: set bounds would switch auto-bounds off for
+    // good in the plot's memory, and the scores that arrive later would be cut off.
     let resp = base_plot("novelty", t0, t1, novelty_h)
         .y_axis_label("novelty")
+        .include_y(0.0)
+        .include_y(signals.map_or(1.0, |s| 2.0 * s.threshold as f64))
         .show(ui, |p| {
             spans_ui(p, &s.interventions, "expert in control", INTERVENTION_FILL);
             spans_ui(p, &s.excursions, "excursion", EXCURSION_FILL);
@@ -161,7 +165,6 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
                     egui_plot::PlotPoint::new((t0 + t1) / 2.0, 0.5),
                     texts::NOT_SCORED,
                 ));
-                p.set_plot_bounds_y(0.0..=1.0);
             }
             p.vline(VLine::new("playhead", now).color(Color32::WHITE).width(1.5));
         });
