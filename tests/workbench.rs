@@ -127,6 +127,8 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
         .map(|&v| if v > 1.0 { 0.01 } else { 0.6 })
         .collect();
     s.flagged = s.novelty.iter().map(|&v| v > 1.0).collect();
+    // Novelty shares: mostly y (70%), some heading (25%), a little speed (5%).
+    s.contributions = (0..n).flat_map(|_| [0.0, 0.7, 0.25, 0.05]).collect();
     s.neighbour_action = vec![0.1; n * 2];
     s.neighbours = vec![0; n * 2];
     s.excursions = vec![
@@ -152,7 +154,8 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
     h.step();
     assert_eq!(h.state().ui.step, 30);
     h.get_by_label_contains(
-        "r1-c · t = 30 · step 31 of 60 · novelty 2.500 (p 0.010, flagged) · in excursion",
+        "r1-c · t = 30 · step 31 of 60 · novelty 2.500 (p 0.010, flagged) · in excursion \
+         · unusual in y 70%, heading 25%",
     );
     h.get_by_label_contains("steer: learner");
     h.get_by_label_contains("demonstrations nearby 0.1");

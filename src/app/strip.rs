@@ -47,11 +47,31 @@ impl Workbench {
             {
                 s += " · in excursion";
             }
+            if let Some(why) = self.novel_features(sig, row) {
+                s += &format!(" · unusual in {why}");
+            }
         }
         if t.intervention(row) {
             s += " · expert in control";
         }
         s
+    }
+
+    /// The features holding most of a row's novelty ("heading 61%, y 30%"), from the
+    /// per-feature shares of the squared distance to the nearest demonstration state.
+    fn novel_features(&self, sig: &super::signals::RoundSignals, row: usize) -> Option<String> {
+        let spec = self.campaign()?.spec();
+        let d = spec.state_dim();
+        let shares = sig.contributions.get(row * d..(row + 1) * d)?;
+        let mut order: Vec<usize> = (0..d).collect();
+        order.sort_by(|&a, &b| shares[b].total_cmp(&shares[a]));
+        let parts: Vec<String> = order
+            .iter()
+            .take(2)
+            .filter(|&&i| shares[i] >= 0.1)
+            .map(|&i| format!("{} {:.0}%", spec.features[i].name, shares[i] * 100.0))
+            .collect();
+        (!parts.is_empty()).then(|| parts.join(", "))
     }
 
     fn channel_readout(&self, c: usize) -> String {
