@@ -183,3 +183,58 @@ fn a_missing_folder_is_reported_not_fatal() {
     h.get_by_label_contains("is not a folder");
     assert!(h.state().campaign().is_none());
 }
+
+#[test]
+fn the_round_is_scored_in_the_background_and_the_shelf_puts_drift_first() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path());
+    let order: Vec<String> = {
+        let wb = h.state();
+        let t = wb.table().unwrap();
+        wb.shelf_order()
+            .iter()
+            .map(|&i| t.episodes[i].name.clone())
+            .collect()
+    };
+    // r1-a follows the lane like the demonstrations; the drifting episodes come first.
+    assert_eq!(order.last().map(String::as_str), Some("r1-a"), "{order:?}");
+    h.get_by_label(&order[0]).click();
+    h.step();
+    h.key_press(Key::End);
+    h.step();
+    let readout = h.state().readout();
+    assert!(
+        readout.contains("novelty") && readout.contains("flagged"),
+        "{readout}"
+    );
+    assert_eq!(
+        h.query_all_by_label_contains("% flagged").count(),
+        4,
+        "three shelf rows and the bar"
+    );
+}
+
+#[test]
+fn saved_scores_are_read_instead_of_scoring_again() {
+    use countersteer::campaign::{LoadOptions, load_campaign};
+    use countersteer::novelty::{build_model, score_round, store};
+    use countersteer::progress::Progress;
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let c = load_campaign(dir.path(), &LoadOptions::default(), &Progress::new()).unwrap();
+    let steps = &c.round(1).unwrap().steps;
+    let model = build_model(&c, &Progress::new()).unwrap();
+    let mut scores = score_round(&model, &c, steps, &Progress::new()).unwrap();
+    // Mark the saved file so reading it (not scoring again) is visible.
+    scores.novelty[0] = 123.0;
+    store::save_scores(dir.path(), 1, steps, &scores).unwrap();
+    let h = harness(dir.path());
+    assert!(
+        h.state().status.message.contains("saved scores"),
+        "{}",
+        h.state().status.message
+    );
+    // The marked step (row 0, in r1-a) makes r1-a the worst episode: the file was read.
+    assert_eq!(h.state().shelf_order()[0], 0);
+}

@@ -74,7 +74,21 @@ impl Workbench {
             self.series.key = None;
         }
         match self.work.score.take_result() {
-            Some(Ok(Ok(Some(s)))) if Some(s.round) == self.ui.round => self.set_signals(s),
+            Some(Ok(Ok(Some(scored)))) => {
+                let flagged = scored.signals.flagged.iter().filter(|&&f| f).count();
+                self.status.info(format!(
+                    "round {}: {flagged} of {} steps flagged ({})",
+                    scored.signals.round,
+                    scored.signals.flagged.len(),
+                    scored.source
+                ));
+                if scored.model.is_some() {
+                    self.model = scored.model;
+                }
+                if Some(scored.signals.round) == self.ui.round {
+                    self.set_signals(scored.signals);
+                }
+            }
             Some(Ok(Err(msg))) => self.status.error(format!("scoring failed: {msg}")),
             _ => {}
         }
@@ -110,6 +124,7 @@ impl Workbench {
         self.campaign = Some(c.clone());
         (self.demo, self.round_view) = (None, None);
         self.signals = Default::default();
+        self.model = None;
         self.density_texture = None;
         self.work
             .demo
@@ -148,11 +163,15 @@ impl Workbench {
         let (Some(c), Some(r)) = (self.campaign.clone(), self.ui.round) else {
             return;
         };
-        self.work
-            .score
-            .start("score", "scoring the round", move |p| {
-                super::signals::compute(&c, r, p)
-            });
+        let model = self.model.clone();
+        let label = if model.is_some() {
+            "scoring the round"
+        } else {
+            "indexing and scoring"
+        };
+        self.work.score.start("score", label, move |p| {
+            super::signals::compute(&c, model, r, p)
+        });
     }
 
     fn select_round(&mut self, r: u32) {

@@ -3,7 +3,6 @@
 
 use super::commands::Command;
 use super::keys::BINDINGS;
-use super::texts;
 use super::workbench::Workbench;
 
 /// Draws the overlay when it is open.
@@ -29,7 +28,7 @@ pub fn help_ui(wb: &mut Workbench, ctx: &egui::Context, cmds: &mut Vec<Command>)
             ui.label("Map: demonstrations as a grey density; the episode's path coloured with the cividis scale; the current step as a ring; its nearest demonstration states as diamonds.");
             ui.label("Drift strip: novelty against time with the flag threshold; excursions shaded yellow, expert control shaded blue; below, each action channel: learner (blue) and the demonstrations nearby (orange). Click or drag in the strip to move the playhead.");
             ui.separator();
-            ui.small(texts::CAUTION);
+            ui.small(crate::SAFETY_CAUTION);
         });
     if !open {
         cmds.push(Command::ToggleHelp);

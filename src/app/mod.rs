@@ -42,7 +42,8 @@ pub fn demo_campaign() -> Option<PathBuf> {
         .find(|p| p.join(crate::campaign::folder::CAMPAIGN_FILE).is_file())
 }
 
-/// Which campaign a starting window opens: the one asked for, else the last one, else the demo.
+/// Which campaign a starting window opens: the one asked for, else the last one, else the demo
+/// (`None`: no demo campaign exists yet; the window writes one into [`DEMO_DIR`]).
 pub fn startup_campaign(asked: Option<&Path>, remembered: &UiState) -> Option<PathBuf> {
     asked
         .map(Path::to_path_buf)
@@ -104,9 +105,7 @@ pub fn run(open: Option<PathBuf>) -> Result<(), RunError> {
             let mut wb = Workbench::new(ui);
             match startup_campaign(open.as_deref(), &wb.ui) {
                 Some(dir) => wb.open(&dir),
-                None => wb
-                    .status
-                    .info("open a campaign folder to begin (no demo campaign found)".into()),
+                None => wb.open_demo(Path::new(DEMO_DIR)),
             }
             Ok(Box::new(App { wb }))
         }),

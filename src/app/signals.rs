@@ -1,12 +1,13 @@
 //! The per-step novelty signals of the selected round, as the shelf, the map and the drift
-//! strip read them. Until novelty scoring is part of the library this holds nothing and the
-//! regions draw what needs no scores; the real scores fill [`RoundSignals`] in one place
-//! ([`compute`]).
+//! strip read them: the library's [`RoundScores`] and excursions, scored on a background
+//! thread by [`compute`]. Until a round is scored the regions draw what needs no scores.
 
 use std::sync::Arc;
 
 use crate::campaign::Campaign;
+use crate::novelty::{self, NoveltyError, NoveltyModel, RoundScores};
 use crate::progress::Progress;
+use crate::review::{self, Excursion, ExcursionSettings};
 
 /// One excursion: a maximal run of flagged steps, as table rows of the round.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -92,12 +93,83 @@ impl Signals {
     }
 }
 
-/// Scores one round of a campaign (runs on a background thread). Returns `Ok(None)` while
-/// the library has no novelty scoring.
+/// Result of a scoring job: the model (kept for the next round) and the round's signals.
+pub struct Scored {
+    /// The novelty model of the campaign's demonstrations (none when saved scores were read).
+    pub model: Option<Arc<NoveltyModel>>,
+    /// Where the scores came from, for the status line.
+    pub source: String,
+    /// The round's signals.
+    pub signals: RoundSignals,
+}
+
+impl RoundSignals {
+    /// Takes the library's scores of a round and its excursions.
+    pub fn from_scores(round: u32, s: RoundScores, excursions: &[Excursion]) -> RoundSignals {
+        RoundSignals {
+            round,
+            k: s.k,
+            novelty: s.novelty,
+            p_value: s.p_value,
+            flagged: s.flagged,
+            threshold: s.threshold,
+            alpha: s.alpha,
+            contributions: s.contributions,
+            neighbour_action: s.neighbour_action,
+            neighbours: s.neighbours,
+            excursions: excursions
+                .iter()
+                .map(|e| ExcursionRows {
+                    episode: e.episode,
+                    onset: e.onset,
+                    peak: e.peak,
+                    end: e.end,
+                })
+                .collect(),
+        }
+    }
+}
+
+/// Scores one round of a campaign (runs on a background thread): reads the round's saved
+/// scores (`countersteer score`) when they match its steps, else builds the novelty model
+/// (unless one is given) and scores every step; then finds the excursions. `Ok(None)` when
+/// cancelled or the round does not exist.
 pub fn compute(
-    _campaign: &Campaign,
-    _round: u32,
-    _progress: &Progress,
-) -> Result<Option<RoundSignals>, String> {
-    Ok(None)
+    campaign: &Campaign,
+    model: Option<Arc<NoveltyModel>>,
+    round: u32,
+    progress: &Progress,
+) -> Result<Option<Scored>, String> {
+    let Some(r) = campaign.round(round) else {
+        return Ok(None);
+    };
+    let saved = novelty::store::load_scores(&campaign.root, round, &r.steps).ok();
+    let (scores, model, source) = match saved {
+        Some(s) => {
+            let path = novelty::store::scores_path(&campaign.root, round);
+            (s, model, format!("saved scores {}", path.display()))
+        }
+        None => {
+            let model = match model {
+                Some(m) => m,
+                None => match novelty::build_model(campaign, progress) {
+                    Ok(m) => Arc::new(m),
+                    Err(NoveltyError::Cancelled) => return Ok(None),
+                    Err(e) => return Err(e.to_string()),
+                },
+            };
+            match novelty::score_round(&model, campaign, &r.steps, progress) {
+                Ok(s) => (s, Some(model), "scored now".to_string()),
+                Err(NoveltyError::Cancelled) => return Ok(None),
+                Err(e) => return Err(e.to_string()),
+            }
+        }
+    };
+    let found = review::excursions(&r.steps, &scores, &ExcursionSettings::default());
+    let signals = RoundSignals::from_scores(round, scores, &found);
+    Ok(Some(Scored {
+        model,
+        signals,
+        source,
+    }))
 }

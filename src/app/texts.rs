@@ -19,6 +19,3 @@ pub const PATH_BY_NOVELTY: &str = "path (colour: novelty, dark low to light high
 pub const CURRENT_STEP: &str = "current step";
 /// Caption of the nearest demonstration states.
 pub const NEIGHBOURS: &str = "nearest demonstration states";
-/// The safety caution shown in the help overlay.
-pub const CAUTION: &str = "Corrected data does not make a policy safe. Test robots and vehicles \
-    only as local regulations and the site's safety procedures require.";

@@ -54,7 +54,7 @@ pub struct Work {
     /// Projecting the selected round.
     pub round: Slot<Option<RoundView>>,
     /// Scoring the selected round.
-    pub score: Slot<Result<Option<RoundSignals>, String>>,
+    pub score: Slot<Result<Option<super::signals::Scored>, String>>,
 }
 
 /// The desktop workbench.
@@ -71,6 +71,7 @@ pub struct Workbench {
     pub(super) demo: Option<Arc<DemoView>>,
     pub(super) round_view: Option<Arc<RoundView>>,
     pub(super) signals: Signals,
+    pub(super) model: Option<Arc<crate::novelty::NoveltyModel>>,
     pub(super) summaries: Arc<Vec<EpisodeSummary>>,
     pub(super) series: EpisodeSeries,
     pub(super) work: Work,
@@ -94,6 +95,7 @@ impl Workbench {
             demo: None,
             round_view: None,
             signals: Signals::default(),
+            model: None,
             summaries: Arc::default(),
             series: EpisodeSeries::default(),
             work: Work::default(),
@@ -115,6 +117,23 @@ impl Workbench {
             .start("load", "loading campaign", move |p| load(dir, p));
     }
 
+    /// Writes the demo campaign into `dir` (unless a campaign is already there) on a background
+    /// thread, then opens it: a new user sees real data at once.
+    pub fn open_demo(&mut self, dir: &Path) {
+        let dir = dir.to_path_buf();
+        self.status.info(format!("writing the demo campaign to {}", dir.display()));
+        self.work.load.start("demo", "writing the demo campaign", move |p| {
+            if !dir.join(crate::campaign::folder::CAMPAIGN_FILE).is_file() {
+                let cfg = crate::sim::DemoConfig::default();
+                if let Err(e) = crate::sim::write_demo_campaign(&dir, &cfg, p) {
+                    let failure = Some(format!("cannot write the demo campaign: {e}"));
+                    return Loaded { dir, campaign: None, problems: Vec::new(), more: 0, failure };
+                }
+            }
+            load(dir, p)
+        });
+    }
+
     /// The open campaign.
     pub fn campaign(&self) -> Option<&Campaign> {
         self.campaign.as_deref()
@@ -127,6 +146,11 @@ impl Workbench {
             || w.demo.running().is_some()
             || w.round.running().is_some()
             || w.score.running().is_some()
+    }
+
+    /// Stops scoring (the benchmark gives its own scores; a user cancels from the bar).
+    pub fn cancel_scoring(&mut self) {
+        self.work.score.cancel();
     }
 
     /// Whether the episode is playing.
