@@ -263,12 +263,10 @@ impl Workbench {
 
     fn cancel_work(&mut self) {
         let w = &mut self.work;
-        (
-            w.load.cancel(),
-            w.demo.cancel(),
-            w.round.cancel(),
-            w.score.cancel(),
-        );
+        w.load.cancel();
+        w.demo.cancel();
+        w.round.cancel();
+        w.score.cancel();
         self.status.info("background work cancelled".into());
     }
 

@@ -52,10 +52,9 @@ mod tests {
         assert_eq!(cividis(f32::NAN), cividis(0.0));
         assert_eq!(cividis(-3.0), cividis(0.0));
         let mid = cividis(0.5);
-        for k in 0..3 {
-            let lo = CIVIDIS[127][k].min(CIVIDIS[128][k]) * 255.0;
-            let hi = CIVIDIS[127][k].max(CIVIDIS[128][k]) * 255.0;
-            assert!((mid[k] as f32) >= lo.floor() && (mid[k] as f32) <= hi.ceil());
+        for ((m, a), b) in mid.iter().zip(CIVIDIS[127]).zip(CIVIDIS[128]) {
+            let (lo, hi) = (a.min(b) * 255.0, a.max(b) * 255.0);
+            assert!((*m as f32) >= lo.floor() && (*m as f32) <= hi.ceil());
         }
     }
 

@@ -24,18 +24,16 @@ impl Density {
             .iter()
             .filter(|p| p[0].is_finite() && p[1].is_finite())
         {
-            for k in 0..2 {
-                min[k] = min[k].min(p[k]);
-                max[k] = max[k].max(p[k]);
-            }
+            min = [min[0].min(p[0]), min[1].min(p[1])];
+            max = [max[0].max(p[0]), max[1].max(p[1])];
         }
         if min[0] > max[0] {
             (min, max) = ([0.0; 2], [1.0; 2]);
         }
-        for k in 0..2 {
-            let pad = ((max[k] - min[k]) * 0.02).max(1e-3);
-            min[k] -= pad;
-            max[k] += pad;
+        for (lo, hi) in min.iter_mut().zip(max.iter_mut()) {
+            let pad = ((*hi - *lo) * 0.02).max(1e-3);
+            *lo -= pad;
+            *hi += pad;
         }
         let mut d = Density {
             width: width.max(1),

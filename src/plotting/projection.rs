@@ -150,8 +150,8 @@ fn covariance(t: &StepTable, mean: &[f64], scale: &[f64]) -> Vec<f64> {
     let mut cov = vec![0.0; d * d];
     let mut z = vec![0.0; d];
     for s in t.states.chunks_exact(d.max(1)) {
-        for j in 0..d {
-            z[j] = (s[j] as f64 - mean[j]) / scale[j];
+        for (((zj, &x), m), sc) in z.iter_mut().zip(s).zip(mean).zip(scale) {
+            *zj = (x as f64 - m) / sc;
         }
         for i in 0..d {
             for j in i..d {
