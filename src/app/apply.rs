@@ -47,7 +47,7 @@ impl Workbench {
             ShelfSort::MostFlagged => {
                 v.sort_by(|a, b| key(b.flagged_share).total_cmp(&key(a.flagged_share)))
             }
-            ShelfSort::MostInterventions => v.sort_by(|a, b| b.interventions.cmp(&a.interventions)),
+            ShelfSort::MostInterventions => v.sort_by_key(|s| std::cmp::Reverse(s.interventions)),
             ShelfSort::Name => v.sort_by(|a, b| a.name.cmp(&b.name)),
         }
         v.into_iter().map(|s| s.index).collect()

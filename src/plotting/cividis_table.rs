@@ -1,40 +1,43 @@
 //! The published cividis table (see [`super::cividis`] for the method and its citation): the
 //! 256 entries as carried by the PyPI package `cividis` 0.0.2 (extracted by
 //! tests/fixtures/plotting/make_cividis.py, which also wrote the fixture the tests compare with).
-//!
-//! Notice for the table's numbers, as required by their licence:
-//!
-//! Copyright (c) 2017, Battelle Memorial Institute
-//!
-//! 1.  Battelle Memorial Institute (hereinafter Battelle) hereby grants
-//! permission to any person or entity lawfully obtaining a copy of this software
-//! and associated documentation files (hereinafter “the Software”) to
-//! redistribute and use the Software in source and binary forms, with or without
-//! modification. Such person or entity may use, copy, modify, merge, publish,
-//! distribute, sublicense, and/or sell copies of the Software, and may permit
-//! others to do so, subject to the following conditions:
-//!
-//! + Redistributions of source code must retain the above copyright notice, this
-//! list of conditions and the following disclaimers.
-//!
-//! + Redistributions in binary form must reproduce the above copyright notice,
-//! this list of conditions and the following disclaimer in the documentation
-//! and/or other materials provided with the distribution.
-//!
-//! + Other than as used herein, neither the name Battelle Memorial Institute or
-//! Battelle may be used in any form whatsoever without the express written
-//! consent of Battelle.
-//!
-//! 2.  THIS SOFTWARE IS PROVIDED BY THE COPYRIGHT HOLDERS AND CONTRIBUTORS
-//! "AS IS" AND ANY EXPRESS OR IMPLIED WARRANTIES, INCLUDING, BUT NOT LIMITED TO,
-//! THE IMPLIED WARRANTIES OF MERCHANTABILITY AND FITNESS FOR A PARTICULAR PURPOSE
-//! ARE DISCLAIMED. IN NO EVENT SHALL BATTELLE OR CONTRIBUTORS BE LIABLE FOR ANY
-//! DIRECT, INDIRECT, INCIDENTAL, SPECIAL, EXEMPLARY, OR CONSEQUENTIAL DAMAGES
-//! (INCLUDING, BUT NOT LIMITED TO, PROCUREMENT OF SUBSTITUTE GOODS OR SERVICES;
-//! LOSS OF USE, DATA, OR PROFITS; OR BUSINESS INTERRUPTION) HOWEVER CAUSED AND ON
-//! ANY THEORY OF LIABILITY, WHETHER IN CONTRACT, STRICT LIABILITY, OR TORT
-//! (INCLUDING NEGLIGENCE OR OTHERWISE) ARISING IN ANY WAY OUT OF THE USE OF THIS
-//! SOFTWARE, EVEN IF ADVISED OF THE POSSIBILITY OF SUCH DAMAGE.
+
+// The table's numbers are published under this notice, which their licence asks to keep:
+//
+// Copyright (c) 2017, Battelle Memorial Institute
+//
+// 1.  Battelle Memorial Institute (hereinafter Battelle) hereby grants
+// permission to any person or entity lawfully obtaining a copy of this software
+// and associated documentation files (hereinafter “the Software”) to
+// redistribute and use the Software in source and binary forms, with or without
+// modification. Such person or entity may use, copy, modify, merge, publish,
+// distribute, sublicense, and/or sell copies of the Software, and may permit
+// others to do so, subject to the following conditions:
+//
+// + Redistributions of source code must retain the above copyright notice, this
+// list of conditions and the following disclaimers.
+//
+// + Redistributions in binary form must reproduce the above copyright notice,
+// this list of conditions and the following disclaimer in the documentation
+// and/or other materials provided with the distribution.
+//
+// + Other than as used herein, neither the name Battelle Memorial Institute or
+// Battelle may be used in any form whatsoever without the express written
+// consent of Battelle.
+//
+// 2.  THIS SOFTWARE IS PROVIDED BY THE COPYRIGHT HOLDERS AND CONTRIBUTORS
+// "AS IS" AND ANY EXPRESS OR IMPLIED WARRANTIES, INCLUDING, BUT NOT LIMITED TO,
+// THE IMPLIED WARRANTIES OF MERCHANTABILITY AND FITNESS FOR A PARTICULAR PURPOSE
+// ARE DISCLAIMED. IN NO EVENT SHALL BATTELLE OR CONTRIBUTORS BE LIABLE FOR ANY
+// DIRECT, INDIRECT, INCIDENTAL, SPECIAL, EXEMPLARY, OR CONSEQUENTIAL DAMAGES
+// (INCLUDING, BUT NOT LIMITED TO, PROCUREMENT OF SUBSTITUTE GOODS OR SERVICES;
+// LOSS OF USE, DATA, OR PROFITS; OR BUSINESS INTERRUPTION) HOWEVER CAUSED AND ON
+// ANY THEORY OF LIABILITY, WHETHER IN CONTRACT, STRICT LIABILITY, OR TORT
+// (INCLUDING NEGLIGENCE OR OTHERWISE) ARISING IN ANY WAY OUT OF THE USE OF THIS
+// SOFTWARE, EVEN IF ADVISED OF THE POSSIBILITY OF SUCH DAMAGE.
+
+// The numbers are measured colours; some merely resemble mathematical constants.
+#![allow(clippy::approx_constant)]
 
 /// The 256 published cividis entries, red/green/blue in `0..=1`, dark blue to yellow.
 pub const CIVIDIS: [[f32; 3]; 256] = [
