@@ -121,17 +121,26 @@ impl Workbench {
     /// thread, then opens it: a new user sees real data at once.
     pub fn open_demo(&mut self, dir: &Path) {
         let dir = dir.to_path_buf();
-        self.status.info(format!("writing the demo campaign to {}", dir.display()));
-        self.work.load.start("demo", "writing the demo campaign", move |p| {
-            if !dir.join(crate::campaign::folder::CAMPAIGN_FILE).is_file() {
-                let cfg = crate::sim::DemoConfig::default();
-                if let Err(e) = crate::sim::write_demo_campaign(&dir, &cfg, p) {
-                    let failure = Some(format!("cannot write the demo campaign: {e}"));
-                    return Loaded { dir, campaign: None, problems: Vec::new(), more: 0, failure };
+        self.status
+            .info(format!("writing the demo campaign to {}", dir.display()));
+        self.work
+            .load
+            .start("demo", "writing the demo campaign", move |p| {
+                if !dir.join(crate::campaign::folder::CAMPAIGN_FILE).is_file() {
+                    let cfg = crate::sim::DemoConfig::default();
+                    if let Err(e) = crate::sim::write_demo_campaign(&dir, &cfg, p) {
+                        let failure = Some(format!("cannot write the demo campaign: {e}"));
+                        return Loaded {
+                            dir,
+                            campaign: None,
+                            problems: Vec::new(),
+                            more: 0,
+                            failure,
+                        };
+                    }
                 }
-            }
-            load(dir, p)
-        });
+                load(dir, p)
+            });
     }
 
     /// The open campaign.
