@@ -1,5 +1,6 @@
 //! `countersteer` and `countersteer open DIR` without a display: a clear message naming the
 //! headless subcommands, and a usage exit code.
+#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 use std::process::Command;
 

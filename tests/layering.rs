@@ -1,5 +1,6 @@
 //! Dependencies point down: no library module outside `src/app/` (and the benchmark binaries,
 //! which drive the window headless) names egui, eframe or egui_plot.
+#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 use std::path::Path;
 

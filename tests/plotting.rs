@@ -1,6 +1,7 @@
 //! Plotting computations against outside references: LTTB against the PyPI `lttb` package,
 //! the map's principal components against numpy (scripts and versions beside the fixtures in
 //! tests/fixtures/plotting/).
+#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 use countersteer::campaign::{ActionChannel, ChannelKind, Episode, Feature, Spec, StepTable};
 use countersteer::plotting::{Projection, ProjectionKind, lttb, lttb_indices};

@@ -1,6 +1,7 @@
 //! The workbench, headless (egui_kittest, no display): open a campaign, select an episode from
 //! the shelf, move the playhead by keyboard and by the play control, and read the strip; a bad
 //! campaign shows its error in the status area.
+#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 mod common;
 
