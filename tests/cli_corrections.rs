@@ -1,5 +1,4 @@
 //! `countersteer correct`, `tally` and `export` end to end, as separate processes.
-#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 

@@ -1,5 +1,4 @@
 //! The merged-set export on a small campaign with two annotators' ledgers.
-#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 

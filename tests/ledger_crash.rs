@@ -7,7 +7,6 @@
 //! open must set it aside (to a side file holding exactly those bytes) and report it.
 //!
 //! The child is this test binary itself, re-run with `--exact child_appender`.
-#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 
