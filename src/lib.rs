@@ -4,12 +4,14 @@
 //! scenario ([`sim`]), and the progress handle long work reports through. The desktop program
 //! ([`app`]) and the command line only call it; nothing outside `app` knows about egui.
 
+pub mod app;
 pub mod campaign;
 pub mod cli;
 pub mod consensus;
 pub mod export;
 pub mod ledger;
 pub mod novelty;
+pub mod plotting;
 pub mod progress;
 pub mod review;
 pub mod sim;

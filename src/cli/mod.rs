@@ -5,6 +5,7 @@ mod check;
 mod correct;
 mod demo;
 mod export;
+mod gui;
 mod plan;
 mod progress_bar;
 mod score;
@@ -50,15 +51,16 @@ pub enum Command {
     Demo(demo::DemoArgs),
     /// Compare labelling strategies over several aggregation rounds on the demo scenario.
     Study(study::StudyArgs),
+    /// Open the desktop workbench on a campaign folder.
+    Open(gui::OpenArgs),
 }
 
 /// Parses the arguments and runs the program.
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
-        None => Err(CliError::usage(
-            "the desktop workbench is not built yet; use a subcommand (see --help)",
-        )),
+        None => gui::run_gui(None),
+        Some(Command::Open(a)) => gui::run_gui(Some(a.dir)),
         Some(Command::Check(a)) => check::run(a),
         Some(Command::Correct(a)) => correct::run(a),
         Some(Command::Tally(a)) => tally::run(a),

@@ -1,6 +1,8 @@
 //! Fixture builders shared by the integration tests.
 #![allow(dead_code, clippy::unwrap_used)]
 
+pub mod rover;
+
 use std::path::Path;
 
 use countersteer::campaign::StepTable;

@@ -1,0 +1,136 @@
+//! The campaign bar along the top: open and recent campaigns, the campaign's name, the round,
+//! counts, the annotator's name, and the progress of background work with a cancel button.
+
+use std::path::PathBuf;
+
+use super::commands::Command;
+use super::workbench::Workbench;
+
+/// Draws the campaign bar.
+pub fn bar_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
+    egui::Panel::top("campaign-bar").show(ui, |ui| {
+        ui.horizontal_wrapped(|ui| {
+            open_ui(wb, ui, cmds);
+            ui.separator();
+            campaign_ui(wb, ui, cmds);
+            ui.separator();
+            let label = ui.label("Annotator");
+            ui.add(
+                egui::TextEdit::singleline(&mut wb.ui.annotator)
+                    .desired_width(110.0)
+                    .hint_text("your name"),
+            )
+            .labelled_by(label.id)
+            .on_hover_text("Your name, recorded with your corrections");
+        });
+        work_ui(wb, ui, cmds);
+    });
+}
+
+fn open_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
+    if ui.button("Open folder...").clicked() {
+        cmds.push(Command::PickFolder);
+    }
+    ui.menu_button("Recent", |ui| {
+        for p in &wb.ui.recent {
+            if ui.button(p.display().to_string()).clicked() {
+                cmds.push(Command::Open(p.clone()));
+                ui.close();
+            }
+        }
+        if wb.ui.recent.is_empty() {
+            ui.label("nothing opened yet");
+        }
+    });
+    let edit = egui::TextEdit::singleline(&mut wb.typed_path)
+        .desired_width(130.0)
+        .hint_text("or type a folder path");
+    let r = ui.add(edit).accessible_name("Campaign folder path");
+    let enter = r.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
+    if (ui.button("Open path").clicked() || enter) && !wb.typed_path.trim().is_empty() {
+        cmds.push(Command::Open(PathBuf::from(wb.typed_path.trim())));
+    }
+}
+
+fn campaign_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
+    let Some(c) = wb.campaign() else {
+        ui.label("no campaign open");
+        return;
+    };
+    ui.strong(&c.file.name)
+        .on_hover_text(c.root.display().to_string());
+    let current = wb.ui.round.map_or("none".to_string(), |r| r.to_string());
+    let label = ui.label("Round");
+    let combo = egui::ComboBox::from_id_salt("round")
+        .selected_text(current)
+        .show_ui(ui, |ui| {
+            for r in &c.rounds {
+                if ui
+                    .selectable_label(wb.ui.round == Some(r.number), r.number.to_string())
+                    .clicked()
+                {
+                    cmds.push(Command::SelectRound(r.number));
+                }
+            }
+        });
+    combo.response.labelled_by(label.id);
+    ui.label(counts(wb));
+}
+
+fn counts(wb: &Workbench) -> String {
+    let Some(t) = wb.table() else {
+        return String::new();
+    };
+    let mut s = format!("{} episodes · {} steps", t.episodes.len(), t.len());
+    // From the shelf summaries: no pass over every row in each frame.
+    let flagged: Option<f32> = wb.ui.round.and_then(|r| wb.signals.for_round(r)).map(|_| {
+        let per = wb
+            .summaries
+            .iter()
+            .map(|e| e.flagged_share.unwrap_or(0.0) * e.steps as f32);
+        per.sum()
+    });
+    match flagged {
+        Some(f) => {
+            s += &format!(
+                " · {:.1}% flagged",
+                100.0 * f as f64 / t.len().max(1) as f64
+            )
+        }
+        None => s += " · not scored yet",
+    }
+    s
+}
+
+fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
+    let w = &wb.work;
+    let running: Vec<(&str, crate::progress::Snapshot)> = [
+        w.load.running().map(|j| (j.label.as_str(), j.snapshot())),
+        w.demo.running().map(|j| (j.label.as_str(), j.snapshot())),
+        w.round.running().map(|j| (j.label.as_str(), j.snapshot())),
+        w.score.running().map(|j| (j.label.as_str(), j.snapshot())),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    let Some((label, snap)) = running.first() else {
+        return;
+    };
+    ui.horizontal(|ui| {
+        let text = format!("{label}: {}", snap.stage);
+        let bar = egui::ProgressBar::new(snap.fraction())
+            .desired_width(280.0)
+            .text(text);
+        ui.add(if snap.total == 0 {
+            bar.animate(true)
+        } else {
+            bar
+        });
+        if running.len() > 1 {
+            ui.label(format!("and {} more", running.len() - 1));
+        }
+        if ui.button("Cancel").clicked() {
+            cmds.push(Command::CancelWork);
+        }
+    });
+}

@@ -1,0 +1,138 @@
+//! The desktop workbench (eframe/egui): the only part of the crate that knows about a window.
+//!
+//! One file per region ([`bar`], [`shelf`], [`map`], [`strip`], [`status`], [`help`]); the
+//! persisted UI state ([`state`]) is kept apart from the domain data, which background jobs
+//! ([`jobs`]) load, project and score. Regions push [`commands::Command`]s that the
+//! [`Workbench`] applies at the end of each frame.
+
+mod apply;
+pub mod bar;
+pub mod commands;
+pub mod frame_view;
+pub mod help;
+pub mod jobs;
+pub mod keys;
+pub mod map;
+pub mod playback;
+pub mod series;
+pub mod shelf;
+pub mod signals;
+pub mod state;
+pub mod status;
+pub mod strip;
+pub mod texts;
+pub mod views;
+pub mod workbench;
+
+use std::path::{Path, PathBuf};
+
+pub use state::UiState;
+pub use workbench::{DrawOptions, Workbench};
+
+/// Folder name of the demo campaign.
+pub const DEMO_DIR: &str = "demo-data";
+
+/// The demo campaign folder, if one can be found: `demo-data/` in the working folder, else
+/// beside the source tree the program was built from.
+pub fn demo_campaign() -> Option<PathBuf> {
+    let here = PathBuf::from(DEMO_DIR);
+    let built = Path::new(env!("CARGO_MANIFEST_DIR")).join(DEMO_DIR);
+    [here, built]
+        .into_iter()
+        .find(|p| p.join(crate::campaign::folder::CAMPAIGN_FILE).is_file())
+}
+
+/// Which campaign a starting window opens: the one asked for, else the last one, else the demo
+/// (`None`: no demo campaign exists yet; the window writes one into [`DEMO_DIR`]).
+pub fn startup_campaign(asked: Option<&Path>, remembered: &UiState) -> Option<PathBuf> {
+    asked
+        .map(Path::to_path_buf)
+        .or_else(|| remembered.campaign.clone())
+        .or_else(demo_campaign)
+}
+
+/// Why the window could not run.
+#[derive(Debug, thiserror::Error)]
+pub enum RunError {
+    /// No display to open a window on.
+    #[error("no display to open the workbench on ({0})")]
+    NoDisplay(String),
+    /// Any other failure of the window system.
+    #[error("the workbench window failed: {0}")]
+    Window(String),
+}
+
+struct App {
+    wb: Workbench,
+}
+
+impl eframe::App for App {
+    fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
+        self.wb.show(ui);
+    }
+
+    fn save(&mut self, storage: &mut dyn eframe::Storage) {
+        eframe::set_value(storage, state::STORAGE_KEY, &self.wb.ui);
+    }
+}
+
+/// Opens the workbench window and runs it until closed. `open` is a campaign folder to open
+/// instead of the remembered or demo one.
+pub fn run(open: Option<PathBuf>) -> Result<(), RunError> {
+    let no_display =
+        std::env::var_os("DISPLAY").is_none() && std::env::var_os("WAYLAND_DISPLAY").is_none();
+    if no_display && cfg!(target_os = "linux") {
+        return Err(RunError::NoDisplay(
+            "neither DISPLAY nor WAYLAND_DISPLAY is set".into(),
+        ));
+    }
+    let options = eframe::NativeOptions {
+        renderer: eframe::Renderer::Glow,
+        viewport: egui::ViewportBuilder::default()
+            .with_title(texts::TITLE)
+            .with_inner_size([1280.0, 800.0])
+            .with_min_inner_size([720.0, 480.0]),
+        ..Default::default()
+    };
+    eframe::run_native(
+        texts::TITLE,
+        options,
+        Box::new(move |cc| {
+            let ui: UiState = cc
+                .storage
+                .and_then(|s| eframe::get_value(s, state::STORAGE_KEY))
+                .unwrap_or_default();
+            let mut wb = Workbench::new(ui);
+            match startup_campaign(open.as_deref(), &wb.ui) {
+                Some(dir) => wb.open(&dir),
+                None => wb.open_demo(Path::new(DEMO_DIR)),
+            }
+            Ok(Box::new(App { wb }))
+        }),
+    )
+    .map_err(|e| {
+        let msg = e.to_string();
+        if msg.contains("DISPLAY") || msg.to_lowercase().contains("display") {
+            RunError::NoDisplay(msg)
+        } else {
+            RunError::Window(msg)
+        }
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn startup_prefers_the_asked_folder_then_the_last_one() {
+        let mut remembered = UiState::default();
+        remembered.remember_campaign(Path::new("/data/last"));
+        let asked = startup_campaign(Some(Path::new("/data/asked")), &remembered);
+        assert_eq!(asked.as_deref(), Some(Path::new("/data/asked")));
+        let last = startup_campaign(None, &remembered);
+        assert_eq!(last.as_deref(), Some(Path::new("/data/last")));
+        // First run: whatever demo campaign can be found (none in a bare checkout).
+        assert_eq!(startup_campaign(None, &UiState::default()), demo_campaign());
+    }
+}

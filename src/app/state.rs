@@ -1,0 +1,152 @@
+//! The window's own state, persisted through eframe storage: what is selected, where the
+//! playhead is, the layout, recent campaigns and the annotator's name. Domain data (the
+//! campaign, scores, corrections) never lives here.
+
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+/// Key under which [`UiState`] is stored.
+pub const STORAGE_KEY: &str = "countersteer.workbench";
+/// How many recent campaigns are remembered.
+pub const RECENT_CAP: usize = 8;
+
+/// How the episode shelf orders episodes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub enum ShelfSort {
+    /// Highest peak novelty first (falls back to name order until scores exist).
+    #[default]
+    WorstNovelty,
+    /// Largest flagged share first.
+    MostFlagged,
+    /// Most intervention steps first.
+    MostInterventions,
+    /// By name.
+    Name,
+}
+
+impl ShelfSort {
+    /// Every order, in menu order.
+    pub const ALL: [ShelfSort; 4] = [
+        ShelfSort::WorstNovelty,
+        ShelfSort::MostFlagged,
+        ShelfSort::MostInterventions,
+        ShelfSort::Name,
+    ];
+
+    /// The order's caption.
+    pub fn caption(self) -> &'static str {
+        match self {
+            ShelfSort::WorstNovelty => "worst novelty",
+            ShelfSort::MostFlagged => "most flagged",
+            ShelfSort::MostInterventions => "most interventions",
+            ShelfSort::Name => "name",
+        }
+    }
+}
+
+/// Sizes and visibility of the window's regions.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct Layout {
+    /// Width of the episode shelf, in points.
+    pub shelf_width: f32,
+    /// Height of the drift strip, in points.
+    pub strip_height: f32,
+    /// Whether the frame image is shown beside the map when the step has one.
+    pub show_frame: bool,
+    /// Share of the centre given to the frame image when shown.
+    pub frame_share: f32,
+}
+
+impl Default for Layout {
+    fn default() -> Self {
+        Layout {
+            shelf_width: 300.0,
+            strip_height: 340.0,
+            show_frame: true,
+            frame_share: 0.4,
+        }
+    }
+}
+
+/// Everything the window remembers between sessions.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct UiState {
+    /// The campaign open when the window last closed.
+    pub campaign: Option<PathBuf>,
+    /// Recently opened campaigns, newest first.
+    pub recent: Vec<PathBuf>,
+    /// The annotator's name (used by ledgers).
+    pub annotator: String,
+    /// Selected round number.
+    pub round: Option<u32>,
+    /// Selected episode name.
+    pub episode: Option<String>,
+    /// Playhead: step offset within the selected episode.
+    pub step: usize,
+    /// Playback speed multiplier.
+    pub speed: f32,
+    /// Shelf order.
+    pub sort: ShelfSort,
+    /// Shelf filter text (episode names containing it).
+    pub filter: String,
+    /// Region sizes.
+    pub layout: Layout,
+}
+
+impl Default for UiState {
+    fn default() -> Self {
+        UiState {
+            campaign: None,
+            recent: Vec::new(),
+            annotator: String::new(),
+            round: None,
+            episode: None,
+            step: 0,
+            speed: 1.0,
+            sort: ShelfSort::default(),
+            filter: String::new(),
+            layout: Layout::default(),
+        }
+    }
+}
+
+impl UiState {
+    /// Records `dir` as the open campaign and the newest recent one.
+    pub fn remember_campaign(&mut self, dir: &Path) {
+        if self.campaign.as_deref() != Some(dir) {
+            self.round = None;
+            self.episode = None;
+            self.step = 0;
+        }
+        self.campaign = Some(dir.to_path_buf());
+        self.recent.retain(|p| p != dir);
+        self.recent.insert(0, dir.to_path_buf());
+        self.recent.truncate(RECENT_CAP);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn recent_list_is_newest_first_without_repeats() {
+        let mut s = UiState::default();
+        for d in ["a", "b", "a", "c"] {
+            s.remember_campaign(Path::new(d));
+        }
+        let names: Vec<_> = s.recent.iter().map(|p| p.to_string_lossy()).collect();
+        assert_eq!(names, ["c", "a", "b"]);
+        assert_eq!(s.campaign.as_deref(), Some(Path::new("c")));
+    }
+
+    #[test]
+    fn old_storage_without_new_fields_still_loads() {
+        let s: UiState = serde_json::from_str(r#"{"annotator":"ana","speed":2.0}"#).unwrap();
+        assert_eq!(s.annotator, "ana");
+        assert_eq!(s.layout, Layout::default());
+    }
+}
