@@ -239,3 +239,43 @@ fn saved_scores_are_read_instead_of_scoring_again() {
     // The marked step (row 0, in r1-a) makes r1-a the worst episode: the file was read.
     assert_eq!(h.state().shelf_order()[0], 0);
 }
+
+/// Corrections already in the campaign's ledgers are counted in the bar and the shelf when
+/// the campaign opens (two annotators on one step count as one corrected step).
+#[test]
+fn corrections_in_the_ledgers_are_counted_in_the_bar_and_the_shelf() {
+    use countersteer::campaign::{LoadOptions, load_campaign};
+    use countersteer::ledger::{Correction, Ledger, Verdict, fingerprint};
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let c = load_campaign(
+        dir.path(),
+        &LoadOptions::default(),
+        &countersteer::progress::Progress::new(),
+    )
+    .unwrap();
+    let steps = &c.rounds[0].steps;
+    let e = &steps.episodes[1];
+    for (who, rows) in [
+        ("ana", vec![e.start + 3, e.start + 9]),
+        ("ben", vec![e.start + 3]),
+    ] {
+        let (mut ledger, _) = Ledger::open(dir.path(), who).unwrap();
+        for row in rows {
+            ledger
+                .append(Correction {
+                    round: c.rounds[0].number,
+                    episode: e.name.clone(),
+                    t: steps.t[row],
+                    fingerprint: fingerprint(steps, row),
+                    verdict: Verdict::from_action(c.spec(), steps.action(row)),
+                    note: None,
+                })
+                .unwrap();
+        }
+    }
+    let h = harness(dir.path());
+    // The bar (scored by now): "3 episodes · 180 steps · N% flagged · 2 corrected".
+    h.get_by_label_contains("flagged · 2 corrected");
+    h.get_by_label_contains("interventions · 2 corrected");
+}

@@ -120,6 +120,13 @@ impl Workbench {
             c.demonstrations.len(),
             c.rounds.len()
         ));
+        self.tally = match crate::ledger::read_ledgers(&c.root) {
+            Ok(ledgers) => Some(crate::consensus::tally(&c, &ledgers)),
+            Err(e) => {
+                self.status.error(format!("ledgers: {e}"));
+                None
+            }
+        };
         let c = Arc::new(c);
         self.campaign = Some(c.clone());
         (self.demo, self.round_view) = (None, None);

@@ -99,6 +99,10 @@ fn counts(wb: &Workbench) -> String {
         }
         None => s += " · not scored yet",
     }
+    if let Some(r) = wb.ui.round {
+        let n = wb.corrected_rows(r, 0..t.len()).len();
+        s += &format!(" · {n} corrected");
+    }
     s
 }
 

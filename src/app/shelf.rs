@@ -71,16 +71,29 @@ fn list_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
         .show_rows(ui, row_h, order.len(), |ui, range| {
             for &i in &order[range] {
                 let s = &wb.summaries[i];
-                if row_ui(ui, s, selected == Some(i), threshold, row_h).clicked() {
+                let corrected = corrected_in(wb, i);
+                if row_ui(ui, s, corrected, selected == Some(i), threshold, row_h).clicked() {
                     cmds.push(Command::SelectEpisode(i));
                 }
             }
         });
 }
 
+/// Steps of episode `i` of the current round with a standing verdict.
+fn corrected_in(wb: &Workbench, i: usize) -> usize {
+    match (wb.ui.round, wb.table()) {
+        (Some(r), Some(t)) => t
+            .episodes
+            .get(i)
+            .map_or(0, |e| wb.corrected_rows(r, e.rows()).len()),
+        _ => 0,
+    }
+}
+
 fn row_ui(
     ui: &mut egui::Ui,
     s: &EpisodeSummary,
+    corrected: usize,
     selected: bool,
     threshold: Option<f32>,
     h: f32,
@@ -95,7 +108,7 @@ fn row_ui(
             });
             ui.small(flagged);
             ui.small(format!(
-                "{} steps · {} interventions",
+                "{} steps · {} interventions · {corrected} corrected",
                 s.steps, s.interventions
             ));
         });

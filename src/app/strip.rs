@@ -17,6 +17,7 @@ const INTERVENTION_FILL: Color32 = Color32::from_rgba_premultiplied(24, 56, 90, 
 const LEARNER: Color32 = Color32::from_rgb(120, 180, 240);
 const EXPERT: Color32 = Color32::from_rgb(240, 170, 60);
 const NOVELTY: Color32 = Color32::from_rgb(220, 200, 90);
+const CORRECTED: Color32 = Color32::from_rgb(150, 230, 150);
 
 impl Workbench {
     /// What the strip reports about the step under the playhead, in one line.
@@ -186,6 +187,12 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
                     texts::NOT_SCORED,
                 ));
             }
+            if let Some(r) = wb.ui.round {
+                for c in wb.corrected_rows(r, e.rows()) {
+                    let t = table.t[c.row] as f64;
+                    p.vline(VLine::new("corrected", t).color(CORRECTED).width(1.0));
+                }
+            }
             p.vline(VLine::new("playhead", now).color(Color32::WHITE).width(1.5));
         });
     scrub(&resp, ts, cmds);
@@ -234,6 +241,7 @@ fn legend_ui(ui: &mut egui::Ui) {
         key(ui, Color32::from_rgb(200, 90, 80), "flag threshold");
         key(ui, EXCURSION_FILL.to_opaque(), "excursion");
         key(ui, INTERVENTION_FILL.to_opaque(), "expert in control");
+        key(ui, CORRECTED, "corrected");
         key(ui, LEARNER, "learner action");
         key(ui, EXPERT, "demonstrations nearby");
     });

@@ -81,9 +81,27 @@ pub struct Workbench {
     pub(super) typed_path: String,
     pub(super) dialog: Option<Receiver<Option<PathBuf>>>,
     pub(super) strip_width: f32,
+    /// Every annotator's corrections, aggregated when the campaign was opened.
+    pub(super) tally: Option<crate::consensus::Tally>,
 }
 
 impl Workbench {
+    /// Rows of a round that have at least one standing verdict, within `rows`.
+    pub fn corrected_rows(
+        &self,
+        round: u32,
+        rows: std::ops::Range<usize>,
+    ) -> &[crate::consensus::StepConsensus] {
+        let Some(t) = &self.tally else { return &[] };
+        let lo = t
+            .steps
+            .partition_point(|s| (s.round, s.row) < (round, rows.start));
+        let hi = t
+            .steps
+            .partition_point(|s| (s.round, s.row) < (round, rows.end));
+        &t.steps[lo..hi]
+    }
+
     /// A workbench with remembered UI state; nothing is loaded yet.
     pub fn new(ui: UiState) -> Self {
         Workbench {
@@ -105,6 +123,7 @@ impl Workbench {
             typed_path: String::new(),
             dialog: None,
             strip_width: 800.0,
+            tally: None,
         }
     }
 
