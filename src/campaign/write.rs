@@ -137,25 +137,7 @@ pub fn write_npz<W: Write + io::Seek>(t: &StepTable, w: W) -> io::Result<()> {
         .begin_nd()?;
     arr.extend(t.actions.iter().copied())?;
     arr.finish()?;
-    let names: Vec<String> = t
-        .episodes
-        .iter()
-        .flat_map(|e| std::iter::repeat_n(e.name.clone(), e.len))
-        .collect();
-    let width = names
-        .iter()
-        .map(|s| s.chars().count())
-        .max()
-        .unwrap_or(1)
-        .max(1);
-    let dtype = npyz::DType::Plain(format!("<U{width}").parse().map_err(io::Error::other)?);
-    let mut arr = npz
-        .array::<String>("episode", opts())?
-        .dtype(dtype)
-        .shape(&[n])
-        .begin_nd()?;
-    arr.extend(names.iter().cloned())?;
-    arr.finish()?;
+    write_episode_names(&mut npz, t, opts())?;
     let mut arr = npz
         .array::<i64>("t", opts())?
         .default_dtype()
@@ -173,4 +155,33 @@ pub fn write_npz<W: Write + io::Seek>(t: &StepTable, w: W) -> io::Result<()> {
         arr.finish()?;
     }
     Ok(())
+}
+
+/// Writes the `episode` array of an `.npz`: each row's episode name, as a numpy unicode
+/// array (`<U{longest}`), which `numpy.load` reads without pickle.
+pub fn write_episode_names<W: Write + io::Seek>(
+    npz: &mut npyz::npz::NpzWriter<W>,
+    t: &StepTable,
+    opts: npyz::zip::write::FileOptions,
+) -> io::Result<()> {
+    use npyz::WriterBuilder;
+    let names = t
+        .episodes
+        .iter()
+        .flat_map(|e| std::iter::repeat_n(e.name.as_str(), e.len));
+    let width = t
+        .episodes
+        .iter()
+        .map(|e| e.name.chars().count())
+        .max()
+        .unwrap_or(1)
+        .max(1);
+    let dtype = npyz::DType::Plain(format!("<U{width}").parse().map_err(io::Error::other)?);
+    let mut arr = npz
+        .array::<String>("episode", opts)?
+        .dtype(dtype)
+        .shape(&[t.len() as u64])
+        .begin_nd()?;
+    arr.extend(names.map(str::to_string))?;
+    arr.finish()
 }

@@ -114,29 +114,7 @@ pub fn write_npz<W: Write + std::io::Seek>(
 ) -> std::io::Result<()> {
     let mut npz = npyz::npz::NpzWriter::new(w);
     let n = s.len() as u64;
-    let names: Vec<String> = steps
-        .episodes
-        .iter()
-        .flat_map(|e| std::iter::repeat_n(e.name.clone(), e.len))
-        .collect();
-    let width = names
-        .iter()
-        .map(|s| s.chars().count())
-        .max()
-        .unwrap_or(1)
-        .max(1);
-    let dtype = npyz::DType::Plain(
-        format!("<U{width}")
-            .parse()
-            .map_err(std::io::Error::other)?,
-    );
-    let mut arr = npz
-        .array::<String>("episode", opts())?
-        .dtype(dtype)
-        .shape(&[n])
-        .begin_nd()?;
-    arr.extend(names.iter().cloned())?;
-    arr.finish()?;
+    crate::campaign::write::write_episode_names(&mut npz, steps, opts())?;
     put(&mut npz, "t", &[n], &steps.t)?;
     put(&mut npz, "novelty", &[n], &s.novelty)?;
     put(&mut npz, "p_value", &[n], &s.p_value)?;
