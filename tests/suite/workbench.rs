@@ -3,7 +3,7 @@
 //! campaign shows its error in the status area.
 #![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
-mod common;
+use crate::common;
 
 use std::time::{Duration, Instant};
 

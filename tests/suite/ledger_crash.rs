@@ -6,7 +6,7 @@
 //! the end of the ledger between some runs, as a power cut mid-write would: the next child's
 //! open must set it aside (to a side file holding exactly those bytes) and report it.
 //!
-//! The child is this test binary itself, re-run with `--exact child_appender`.
+//! The child is this test binary itself, re-run with `--exact ledger_crash::child_appender`.
 
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 
@@ -67,11 +67,18 @@ fn child_appender() {
     }
 }
 
+/// The child's full test name inside the suite binary, e.g. `ledger_crash::child_appender`.
+fn child_test_name() -> String {
+    let module = module_path!();
+    let within = module.split_once("::").map_or(module, |(_, rest)| rest);
+    format!("{within}::child_appender")
+}
+
 fn child(dir: &Path, who: &str, count: Option<u64>) -> Command {
     let mut c = Command::new(std::env::current_exe().unwrap());
     c.args([
         "--exact",
-        "child_appender",
+        &child_test_name(),
         "--include-ignored",
         "--nocapture",
         "--test-threads=1",

@@ -2,8 +2,7 @@
 
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 
-mod campaign_kit;
-use campaign_kit as common;
+use crate::campaign_kit as common;
 
 use std::path::Path;
 

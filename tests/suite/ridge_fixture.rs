@@ -17,7 +17,7 @@ fn floats(v: &Value) -> Vec<f64> {
 
 #[test]
 fn ridge_matches_numpy_lstsq_on_the_augmented_system() {
-    let text = include_str!("fixtures/ridge/ridge_fixture.json");
+    let text = include_str!("../fixtures/ridge/ridge_fixture.json");
     let fixture: Value = serde_json::from_str(text).unwrap();
     let cases = fixture["cases"].as_array().unwrap();
     assert_eq!(cases.len(), 3);

@@ -18,12 +18,12 @@ fn csv_rows(text: &str) -> Vec<Vec<f64>> {
 /// for several output sizes, to the last bit.
 #[test]
 fn lttb_matches_the_pypi_lttb_package() {
-    let input: Vec<[f64; 2]> = csv_rows(include_str!("fixtures/plotting/lttb_input.csv"))
+    let input: Vec<[f64; 2]> = csv_rows(include_str!("../fixtures/plotting/lttb_input.csv"))
         .into_iter()
         .map(|r| [r[0], r[1]])
         .collect();
     assert_eq!(input.len(), 1000);
-    let expected = csv_rows(include_str!("fixtures/plotting/lttb_output.csv"));
+    let expected = csv_rows(include_str!("../fixtures/plotting/lttb_output.csv"));
     for n_out in [3usize, 37, 100, 999] {
         let want: Vec<[f64; 2]> = expected
             .iter()
@@ -95,7 +95,7 @@ fn spec(d: usize) -> Spec {
 #[test]
 fn principal_projection_matches_numpy() {
     let v: serde_json::Value =
-        serde_json::from_str(include_str!("fixtures/plotting/pca.json")).unwrap();
+        serde_json::from_str(include_str!("../fixtures/plotting/pca.json")).unwrap();
     let states: Vec<Vec<f64>> = serde_json::from_value(v["states"].clone()).unwrap();
     let want: Vec<[f64; 2]> = serde_json::from_value(v["projected"].clone()).unwrap();
     let explained: [f64; 2] = serde_json::from_value(v["explained"].clone()).unwrap();

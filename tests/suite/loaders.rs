@@ -3,7 +3,7 @@
 
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 
-mod common;
+use crate::common;
 
 use std::fs::File;
 use std::path::Path;

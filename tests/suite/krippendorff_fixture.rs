@@ -8,7 +8,7 @@ use countersteer::consensus::{Metric, krippendorff_alpha};
 
 #[test]
 fn alpha_matches_the_krippendorff_package_on_the_committed_fixture() {
-    let text = include_str!("fixtures/krippendorff/alpha_fixture.json");
+    let text = include_str!("../fixtures/krippendorff/alpha_fixture.json");
     let fixture: serde_json::Value = serde_json::from_str(text).unwrap();
     assert!(
         fixture["source"]

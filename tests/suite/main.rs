@@ -1,0 +1,32 @@
+//! The integration tests, linked into one test binary.
+//!
+//! Each file below was once its own test binary; linking every one of them against the
+//! whole GUI stack cost minutes and gigabytes per build, so they share this one. Run a
+//! single group with a filter, e.g. `cargo test --test suite ledger_crash::`.
+
+#![allow(clippy::unwrap_used)] // test code: a panic is a failure report
+
+mod campaign_kit;
+mod common;
+
+mod bad_inputs;
+mod calibration;
+mod cli_corrections;
+mod cli_gui;
+mod cli_score_plan;
+mod conformal;
+mod demo_campaign;
+mod export;
+mod export_numpy;
+mod krippendorff_fixture;
+mod layering;
+mod ledger_crash;
+mod loaders;
+mod novelty_knn;
+mod plotting;
+mod review_plan;
+mod ridge_fixture;
+mod safety_caution;
+mod sim_closed_loop;
+mod study;
+mod workbench;
