@@ -22,31 +22,23 @@ pub struct ExcursionRows {
     pub end: usize,
 }
 
-/// Novelty signals for every row of one round's table.
+/// Novelty signals for every row of one round's table: the library's [`RoundScores`] (read
+/// through `Deref`, so `signals.novelty` is the scores' vector) and the round's excursions.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct RoundSignals {
     /// The round these belong to.
     pub round: u32,
-    /// Neighbours per step.
-    pub k: usize,
-    /// Novelty per row (k-th neighbour distance in scaled units).
-    pub novelty: Vec<f32>,
-    /// Conformal p-value per row.
-    pub p_value: Vec<f32>,
-    /// Flagged per row.
-    pub flagged: Vec<bool>,
-    /// Novelty at which a step is flagged.
-    pub threshold: f32,
-    /// Flag level.
-    pub alpha: f64,
-    /// Per-feature share of the novelty, `state_dim` values per row.
-    pub contributions: Vec<f32>,
-    /// Distance-weighted mean of the neighbours' expert actions, `action_dim` values per row.
-    pub neighbour_action: Vec<f32>,
-    /// Demonstration rows of the k nearest neighbours, `k` per row.
-    pub neighbours: Vec<u32>,
+    /// The library's per-step scores of the round.
+    pub scores: RoundScores,
     /// Excursions of the round.
     pub excursions: Vec<ExcursionRows>,
+}
+
+impl std::ops::Deref for RoundSignals {
+    type Target = RoundScores;
+    fn deref(&self) -> &RoundScores {
+        &self.scores
+    }
 }
 
 impl RoundSignals {
@@ -108,15 +100,7 @@ impl RoundSignals {
     pub fn from_scores(round: u32, s: RoundScores, excursions: &[Excursion]) -> RoundSignals {
         RoundSignals {
             round,
-            k: s.k,
-            novelty: s.novelty,
-            p_value: s.p_value,
-            flagged: s.flagged,
-            threshold: s.threshold,
-            alpha: s.alpha,
-            contributions: s.contributions,
-            neighbour_action: s.neighbour_action,
-            neighbours: s.neighbours,
+            scores: s,
             excursions: excursions
                 .iter()
                 .map(|e| ExcursionRows {

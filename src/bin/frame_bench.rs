@@ -11,6 +11,7 @@ use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
 use countersteer::app::signals::{ExcursionRows, RoundSignals};
+use countersteer::novelty::RoundScores;
 use countersteer::app::{UiState, Workbench};
 use countersteer::campaign::{
     ActionChannel, Campaign, CampaignFile, ChannelKind, Episode, Feature, NoveltySettings, Round,
@@ -87,18 +88,20 @@ fn signals(n: usize) -> RoundSignals {
         .collect();
     RoundSignals {
         round: 1,
-        k: 5,
-        p_value: novelty.iter().map(|&v| (2.0 - v).clamp(0.0, 1.0)).collect(),
-        neighbour_action: (0..n * 2)
-            .map(|i| ((i as f32) * 0.0003).sin() * 0.4)
-            .collect(),
-        neighbours: (0..n * 5).map(|i| (i * 13 % n) as u32).collect(),
-        threshold: 1.6,
-        alpha: 0.05,
-        flagged,
-        novelty,
+        scores: RoundScores {
+            k: 5,
+            p_value: novelty.iter().map(|&v| (2.0 - v).clamp(0.0, 1.0)).collect(),
+            neighbour_action: (0..n * 2)
+                .map(|i| ((i as f32) * 0.0003).sin() * 0.4)
+                .collect(),
+            neighbours: (0..n * 5).map(|i| (i * 13 % n) as u32).collect(),
+            threshold: 1.6,
+            alpha: 0.05,
+            flagged,
+            novelty,
+            ..Default::default()
+        },
         excursions,
-        ..Default::default()
     }
 }
 

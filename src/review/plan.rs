@@ -253,6 +253,18 @@ impl Planner {
         scores: &RoundScores,
         corrected_states: &[f32],
     ) -> ReviewList {
+        self.plan_up_to(steps, scores, corrected_states, self.settings.budget)
+    }
+
+    /// Like [`Planner::plan`], but chooses at most `limit` entries (the part of the budget
+    /// not used yet) from the pool made for the full budget.
+    pub fn plan_up_to(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        corrected_states: &[f32],
+        limit: usize,
+    ) -> ReviewList {
         let mut cover = Cover::new(&self.points, self.dim);
         let mut scaled = vec![0.0f32; self.dim];
         for c in corrected_states.chunks_exact(self.dim.max(1)) {
@@ -262,7 +274,7 @@ impl Planner {
             cover.add_center(&scaled);
         }
         let mut entries = Vec::new();
-        while entries.len() < self.settings.budget {
+        while entries.len() < limit {
             let Some(i) = cover.farthest() else { break };
             let distance = cover.distance(i);
             if distance <= self.settings.min_distance {
@@ -279,6 +291,19 @@ impl Planner {
             candidates: self.candidates,
             pool: self.pool.len(),
         }
+    }
+
+    /// Why a row is a candidate (empty when it is none, or did not make the pool).
+    pub fn reasons_of(&self, row: usize) -> &[Reason] {
+        self.pool
+            .iter()
+            .find(|c| c.row == row)
+            .map_or(&[], |c| c.reasons.as_slice())
+    }
+
+    /// The settings the planner was made with.
+    pub fn settings(&self) -> &PlanSettings {
+        &self.settings
     }
 
     fn drop_near(&self, cover: &mut Cover<'_>, steps: &StepTable, i: usize) {

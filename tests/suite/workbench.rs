@@ -108,12 +108,15 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
     // Hand-made scores: episode r1-c (rows 120..180) is flagged from step 30 to 39 and 50 to 54.
     let mut s = RoundSignals {
         round: 1,
-        k: 2,
-        threshold: 1.0,
-        alpha: 0.05,
+        scores: countersteer::novelty::RoundScores {
+            k: 2,
+            threshold: 1.0,
+            alpha: 0.05,
+            ..Default::default()
+        },
         ..Default::default()
     };
-    s.novelty = (0..n)
+    s.scores.novelty = (0..n)
         .map(|r| {
             if (150..160).contains(&r) || (170..175).contains(&r) {
                 2.5
@@ -122,16 +125,17 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
             }
         })
         .collect();
-    s.p_value = s
+    s.scores.p_value = s
+        .scores
         .novelty
         .iter()
         .map(|&v| if v > 1.0 { 0.01 } else { 0.6 })
         .collect();
-    s.flagged = s.novelty.iter().map(|&v| v > 1.0).collect();
+    s.scores.flagged = s.scores.novelty.iter().map(|&v| v > 1.0).collect();
     // Novelty shares: mostly y (70%), some heading (25%), a little speed (5%).
-    s.contributions = (0..n).flat_map(|_| [0.0, 0.7, 0.25, 0.05]).collect();
-    s.neighbour_action = vec![0.1; n * 2];
-    s.neighbours = vec![0; n * 2];
+    s.scores.contributions = (0..n).flat_map(|_| [0.0, 0.7, 0.25, 0.05]).collect();
+    s.scores.neighbour_action = vec![0.1; n * 2];
+    s.scores.neighbours = vec![0; n * 2];
     s.excursions = vec![
         ExcursionRows {
             episode: 2,
