@@ -92,6 +92,9 @@ impl Workbench {
             Some(Ok(Err(msg))) => self.status.error(format!("scoring failed: {msg}")),
             _ => {}
         }
+        if let Some(Ok(t)) = self.work.tally.take_result() {
+            self.on_tally(t);
+        }
     }
 
     fn on_loaded(&mut self, l: Loaded) {
@@ -120,6 +123,9 @@ impl Workbench {
             c.demonstrations.len(),
             c.rounds.len()
         ));
+        self.desk = Default::default();
+        self.desk.stamps = crate::ledger::ledger_stamps(&c.root);
+        self.desk.polled = Some(std::time::Instant::now());
         self.tally = match crate::ledger::read_ledgers(&c.root) {
             Ok(ledgers) => Some(crate::consensus::tally(&c, &ledgers)),
             Err(e) => {
@@ -129,6 +135,7 @@ impl Workbench {
         };
         let c = Arc::new(c);
         self.campaign = Some(c.clone());
+        self.open_ledger();
         (self.demo, self.round_view) = (None, None);
         self.signals = Default::default();
         self.model = None;
@@ -184,6 +191,9 @@ impl Workbench {
     fn select_round(&mut self, r: u32) {
         let changed = self.ui.round != Some(r);
         self.ui.round = Some(r);
+        if changed {
+            self.desk.sitting = None;
+        }
         if changed || self.round_view.is_none() {
             self.round_view = None;
             self.start_round_view();
@@ -265,6 +275,42 @@ impl Workbench {
             Command::Pause => self.playback.pause(),
             Command::Speed(up) => self.ui.speed = next_speed(self.ui.speed, up),
             Command::ToggleHelp => self.show_help = !self.show_help,
+            c => self.apply_desk(c),
+        }
+    }
+
+    fn apply_desk(&mut self, c: Command) {
+        use crate::review::Status;
+        match c {
+            Command::SaveAction => self.give_verdict(Status::Corrected),
+            Command::Skip => self.give_verdict(Status::Skipped),
+            Command::Unrecoverable => self.give_verdict(Status::Unrecoverable),
+            Command::Undo => self.undo(),
+            Command::NextOpen => self.go_next_open(),
+            Command::GoToRow(r) => self.go_to_row(r),
+            Command::CycleChannel(d) => self.cycle_channel(d),
+            Command::Nudge(n) => self.nudge_active(n),
+            Command::SetValue(i, v) => self.set_value(i, v),
+            Command::TakeSuggestion => self.take(false),
+            Command::TakeLearner => self.take(true),
+            Command::Focus(f) => {
+                if f == super::commands::FocusTarget::Budget {
+                    self.ui.review_tab = true;
+                }
+                self.desk.focus = Some(f);
+            }
+            Command::Replan => self.replan(),
+            Command::ShowReviewList(on) => self.ui.review_tab = on,
+            Command::ToggleShelfTab => self.ui.review_tab = !self.ui.review_tab,
+            Command::AskAnnotator => {
+                self.desk.name_draft = self.ui.annotator.clone();
+                self.desk.asking_name = true;
+            }
+            Command::SetAnnotator(name) => self.set_annotator(name),
+            Command::ToggleExport => self.export.open = !self.export.open,
+            Command::PickExportTarget => self.pick_export_target(),
+            Command::RunExport => self.run_export(),
+            _ => {}
         }
     }
 
@@ -274,6 +320,8 @@ impl Workbench {
         w.demo.cancel();
         w.round.cancel();
         w.score.cancel();
+        w.tally.cancel();
+        w.export.cancel();
         self.status.info("background work cancelled".into());
     }
 

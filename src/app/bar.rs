@@ -14,15 +14,23 @@ pub fn bar_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             ui.separator();
             campaign_ui(wb, ui, cmds);
             ui.separator();
-            let label = ui.label("Annotator");
-            ui.add(
-                egui::TextEdit::singleline(&mut wb.ui.annotator)
-                    .desired_width(110.0)
-                    .hint_text("your name"),
-            )
-            .labelled_by(label.id)
-            .on_hover_text("Your name, recorded with your corrections");
+            let who = if wb.ui.annotator.is_empty() {
+                "no annotator".to_string()
+            } else {
+                format!("annotator {}", wb.ui.annotator)
+            };
+            if ui
+                .button(who)
+                .on_hover_text("Your name, recorded with your corrections; click to change")
+                .clicked()
+            {
+                cmds.push(Command::AskAnnotator);
+            }
+            if ui.button("Export... (Ctrl E)").clicked() {
+                cmds.push(Command::ToggleExport);
+            }
         });
+        agreement_ui(wb, ui);
         work_ui(wb, ui, cmds);
     });
 }
@@ -113,6 +121,7 @@ fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
         w.demo.running().map(|j| (j.label.as_str(), j.snapshot())),
         w.round.running().map(|j| (j.label.as_str(), j.snapshot())),
         w.score.running().map(|j| (j.label.as_str(), j.snapshot())),
+        w.export.running().map(|j| (j.label.as_str(), j.snapshot())),
     ]
     .into_iter()
     .flatten()
@@ -137,4 +146,26 @@ fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             cmds.push(Command::CancelWork);
         }
     });
+}
+
+/// The tally of agreement: annotators, steps judged by two or more, and Krippendorff's alpha
+/// per action channel and for the verdict kind (from [`crate::consensus`]).
+fn agreement_ui(wb: &Workbench, ui: &mut egui::Ui) {
+    let Some(t) = &wb.tally else { return };
+    if t.ledgers.is_empty() {
+        return;
+    }
+    let multi: usize = t.rounds.iter().map(|r| r.multi).sum();
+    let alpha = |a: Option<f64>| a.map_or("–".to_string(), |a| format!("{a:.2}"));
+    let mut parts: Vec<String> = t
+        .channels
+        .iter()
+        .map(|c| format!("{} {}", c.channel, alpha(c.alpha)))
+        .collect();
+    parts.push(format!("verdict {}", alpha(t.verdicts.alpha)));
+    ui.label(format!(
+        "tally: {} annotator(s) · {multi} step(s) judged by two or more · agreement α: {}",
+        t.ledgers.len(),
+        parts.join(", ")
+    ));
 }

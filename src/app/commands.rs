@@ -34,4 +34,56 @@ pub enum Command {
     Speed(bool),
     /// Show or hide the help overlay.
     ToggleHelp,
+    /// Save the desk's action as a correction of the step on the desk, then go to the next
+    /// open entry.
+    SaveAction,
+    /// Record `skip` for the step on the desk, then go to the next open entry.
+    Skip,
+    /// Record `unrecoverable` for the step on the desk, then go to the next open entry.
+    Unrecoverable,
+    /// Retract the annotator's latest standing correction and go back to its step.
+    Undo,
+    /// Go to the highest-ranked open entry of the review list.
+    NextOpen,
+    /// Put the playhead on this row of the round's table.
+    GoToRow(usize),
+    /// Make the next (1) or previous (-1) action channel the active one.
+    CycleChannel(i32),
+    /// Move the active channel's value by this many keyboard steps.
+    Nudge(i32),
+    /// Set a channel's value in the desk (channel, value).
+    SetValue(usize, f32),
+    /// Put the suggested action (the experts nearby) in the desk.
+    TakeSuggestion,
+    /// Put the learner's action in the desk.
+    TakeLearner,
+    /// Move the keyboard focus to a field of the desk or the list.
+    Focus(FocusTarget),
+    /// Plan the review list again with the budget in the list's field.
+    Replan,
+    /// Show the episode shelf (false) or the review list (true).
+    ShowReviewList(bool),
+    /// Switch between the episode shelf and the review list.
+    ToggleShelfTab,
+    /// Ask for the annotator's name again.
+    AskAnnotator,
+    /// Use this annotator name (opens their ledger).
+    SetAnnotator(String),
+    /// Show or hide the export window.
+    ToggleExport,
+    /// Choose the export target with the system save dialog.
+    PickExportTarget,
+    /// Run the export with the window's options.
+    RunExport,
+}
+
+/// Fields that a key can move the keyboard focus to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FocusTarget {
+    /// The exact-number field of the active channel.
+    Exact,
+    /// The note field.
+    Note,
+    /// The review list's budget field.
+    Budget,
 }

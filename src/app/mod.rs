@@ -1,19 +1,25 @@
 //! The desktop workbench (eframe/egui): the only part of the crate that knows about a window.
 //!
-//! One file per region ([`bar`], [`shelf`], [`map`], [`strip`], [`status`], [`help`]); the
+//! One file per region ([`bar`], [`shelf`], [`review_list`], [`map`], [`strip`], [`desk`],
+//! [`status`], [`help`], [`export_view`]); the
 //! persisted UI state ([`state`]) is kept apart from the domain data, which background jobs
 //! ([`jobs`]) load, project and score. Regions push [`commands::Command`]s that the
 //! [`Workbench`] applies at the end of each frame.
 
 mod apply;
+pub mod annotator;
 pub mod bar;
 pub mod commands;
+pub mod desk;
+pub mod desk_state;
+pub mod export_view;
 pub mod frame_view;
 pub mod help;
 pub mod jobs;
 pub mod keys;
 pub mod map;
 pub mod playback;
+pub mod review_list;
 pub mod series;
 pub mod shelf;
 pub mod signals;

@@ -1,5 +1,5 @@
 //! The episode shelf on the left: the round's episodes with a novelty sparkline, flagged
-//! share and interventions; sort and filter. A tab row leaves room for further lists.
+//! share and interventions; sort and filter. A tab beside it shows the review list.
 
 use egui::{Color32, Sense, Stroke, pos2, vec2};
 
@@ -16,9 +16,20 @@ pub fn shelf_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) 
         .size_range(180.0..=520.0)
         .show(ui, |ui| {
             ui.horizontal(|ui| {
-                let _ = ui.selectable_label(true, "Episodes");
+                let review = wb.ui.review_tab;
+                if ui.selectable_label(!review, "Episodes").clicked() {
+                    cmds.push(Command::ShowReviewList(false));
+                }
+                if ui.selectable_label(review, "Review list").clicked() {
+                    cmds.push(Command::ShowReviewList(true));
+                }
+                ui.weak("(F2)");
             });
             ui.separator();
+            if wb.ui.review_tab {
+                super::review_list::review_list_ui(wb, ui, cmds);
+                return;
+            }
             controls_ui(wb, ui);
             ui.separator();
             list_ui(wb, ui, cmds);

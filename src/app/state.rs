@@ -8,6 +8,8 @@ use serde::{Deserialize, Serialize};
 
 /// Key under which [`UiState`] is stored.
 pub const STORAGE_KEY: &str = "countersteer.workbench";
+/// Review list budget until the user sets one.
+pub const DEFAULT_BUDGET: usize = 20;
 /// How many recent campaigns are remembered.
 pub const RECENT_CAP: usize = 8;
 
@@ -94,6 +96,10 @@ pub struct UiState {
     pub filter: String,
     /// Region sizes.
     pub layout: Layout,
+    /// Entries of the review list (done and open).
+    pub budget: usize,
+    /// Whether the left panel shows the review list instead of the episodes.
+    pub review_tab: bool,
 }
 
 impl Default for UiState {
@@ -109,6 +115,8 @@ impl Default for UiState {
             sort: ShelfSort::default(),
             filter: String::new(),
             layout: Layout::default(),
+            budget: DEFAULT_BUDGET,
+            review_tab: false,
         }
     }
 }

@@ -55,6 +55,10 @@ pub struct Work {
     pub round: Slot<Option<RoundView>>,
     /// Scoring the selected round.
     pub score: Slot<Result<Option<super::signals::Scored>, String>>,
+    /// Reading the ledgers again after one changed on disk.
+    pub tally: Slot<Result<crate::consensus::Tally, String>>,
+    /// Exporting the merged set.
+    pub export: Slot<Result<(PathBuf, crate::export::Manifest), String>>,
 }
 
 /// The desktop workbench.
@@ -81,8 +85,13 @@ pub struct Workbench {
     pub(super) typed_path: String,
     pub(super) dialog: Option<Receiver<Option<PathBuf>>>,
     pub(super) strip_width: f32,
-    /// Every annotator's corrections, aggregated when the campaign was opened.
+    /// Every annotator's corrections, aggregated when the campaign was opened and again
+    /// whenever a ledger changes on disk.
     pub(super) tally: Option<crate::consensus::Tally>,
+    /// The correction desk and the review sitting.
+    pub desk: super::desk_state::Desk,
+    /// The export window.
+    pub export: super::export_view::ExportForm,
 }
 
 impl Workbench {
@@ -124,6 +133,8 @@ impl Workbench {
             dialog: None,
             strip_width: 800.0,
             tally: None,
+            desk: Default::default(),
+            export: Default::default(),
         }
     }
 
@@ -174,6 +185,8 @@ impl Workbench {
             || w.demo.running().is_some()
             || w.round.running().is_some()
             || w.score.running().is_some()
+            || w.tally.running().is_some()
+            || w.export.running().is_some()
     }
 
     /// Stops scoring (the benchmark gives its own scores; a user cancels from the bar).
@@ -190,26 +203,39 @@ impl Workbench {
     pub fn set_signals(&mut self, signals: RoundSignals) {
         self.signals.current = Some(Arc::new(signals));
         self.refresh_round();
+        self.start_sitting();
     }
 
     /// Draws one frame of the whole window into `ui` and applies what it asked for.
     pub fn show(&mut self, ui: &mut egui::Ui) {
         self.poll_work();
+        self.poll_ledgers();
+        self.poll_export();
+        self.sync_desk();
         let mut cmds = super::keys::commands(ui.ctx());
         self.tick_playback(ui.ctx(), &mut cmds);
         super::bar::bar_ui(self, ui, &mut cmds);
         super::status::status_ui(self, ui, &mut cmds);
         super::strip::strip_ui(self, ui, &mut cmds);
         super::shelf::shelf_ui(self, ui, &mut cmds);
+        super::desk::desk_ui(self, ui, &mut cmds);
         egui::CentralPanel::default().show(ui, |ui| super::map::centre_ui(self, ui, &mut cmds));
         super::help::help_ui(self, ui.ctx(), &mut cmds);
+        super::annotator::name_prompt_ui(self, ui.ctx(), &mut cmds);
+        super::export_view::export_ui(self, ui.ctx(), &mut cmds);
         for c in cmds {
             self.apply(c);
         }
+        self.sync_desk();
         self.poll_dialog();
-        if self.busy() || self.playback.playing || self.frames.busy() || self.dialog.is_some() {
+        let waiting = self.dialog.is_some() || self.export.dialog.is_some();
+        if self.busy() || self.playback.playing || self.frames.busy() || waiting {
             ui.ctx()
                 .request_repaint_after(std::time::Duration::from_millis(30));
+        } else if self.campaign.is_some() {
+            // Keep polling the ledgers while idle.
+            ui.ctx()
+                .request_repaint_after(super::desk_state::POLL_EVERY);
         }
     }
 

@@ -188,3 +188,20 @@ pub fn read_ledgers(campaign_root: &Path) -> Result<Vec<AnnotatorLedger>, Ledger
     paths.sort();
     paths.iter().map(|p| read_ledger(p)).collect()
 }
+
+/// The stamps of every ledger file of a campaign, sorted by path: compare two calls to see
+/// whether any ledger was added, grew or was replaced (a few `stat` calls; cheap to poll).
+pub fn ledger_stamps(campaign_root: &Path) -> Vec<(PathBuf, FileStamp)> {
+    let dir = campaign_root.join(LEDGERS_DIR);
+    let Ok(entries) = std::fs::read_dir(&dir) else {
+        return Vec::new();
+    };
+    let mut out: Vec<(PathBuf, FileStamp)> = entries
+        .flatten()
+        .map(|e| e.path())
+        .filter(|p| p.extension().is_some_and(|x| x == "jsonl"))
+        .filter_map(|p| FileStamp::of(&p).map(|s| (p, s)))
+        .collect();
+    out.sort_by(|a, b| a.0.cmp(&b.0));
+    out
+}

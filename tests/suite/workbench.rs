@@ -14,7 +14,12 @@ use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 
 fn harness(dir: &std::path::Path) -> Harness<'static, Workbench> {
-    let mut wb = Workbench::new(UiState::default());
+    // A remembered annotator: no name prompt takes the keyboard.
+    let ui = UiState {
+        annotator: "tester".into(),
+        ..UiState::default()
+    };
+    let mut wb = Workbench::new(ui);
     wb.open(dir);
     let mut h = Harness::builder()
         .with_size(egui::vec2(1280.0, 800.0))
