@@ -15,7 +15,9 @@ pub fn name_prompt_ui(wb: &mut Workbench, ctx: &egui::Context, cmds: &mut Vec<Co
         .resizable(false)
         .anchor(egui::Align2::CENTER_CENTER, egui::Vec2::ZERO)
         .show(ctx, |ui| {
-            ui.label("Your corrections are kept in a ledger under your name (letters, digits, _ - .).");
+            ui.label(
+                "Your corrections are kept in a ledger under your name (letters, digits, _ - .).",
+            );
             let l = ui.label("Annotator name");
             let r = ui
                 .add(egui::TextEdit::singleline(&mut wb.desk.name_draft).desired_width(200.0))

@@ -294,8 +294,15 @@ impl Workbench {
             Command::TakeSuggestion => self.take(false),
             Command::TakeLearner => self.take(true),
             Command::Focus(f) => {
-                if f == super::commands::FocusTarget::Budget {
-                    self.ui.review_tab = true;
+                match f {
+                    super::commands::FocusTarget::Budget => self.ui.review_tab = true,
+                    // A fresh field: the number typed replaces the value.
+                    super::commands::FocusTarget::Exact => {
+                        if let Some(t) = self.desk.exact.get_mut(self.desk.active) {
+                            t.clear();
+                        }
+                    }
+                    super::commands::FocusTarget::Note => {}
                 }
                 self.desk.focus = Some(f);
             }

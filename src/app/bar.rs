@@ -152,7 +152,8 @@ fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 /// per action channel and for the verdict kind (from [`crate::consensus`]).
 fn agreement_ui(wb: &Workbench, ui: &mut egui::Ui) {
     let Some(t) = &wb.tally else { return };
-    if t.ledgers.is_empty() {
+    let annotators = t.ledgers.iter().filter(|l| l.records > 0).count();
+    if annotators == 0 {
         return;
     }
     let multi: usize = t.rounds.iter().map(|r| r.multi).sum();
@@ -165,7 +166,7 @@ fn agreement_ui(wb: &Workbench, ui: &mut egui::Ui) {
     parts.push(format!("verdict {}", alpha(t.verdicts.alpha)));
     ui.label(format!(
         "tally: {} annotator(s) · {multi} step(s) judged by two or more · agreement α: {}",
-        t.ledgers.len(),
+        annotators,
         parts.join(", ")
     ));
 }

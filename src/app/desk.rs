@@ -175,44 +175,49 @@ fn channel_ui(
     } else {
         Stroke::new(0.5, ui.visuals().weak_text_color())
     };
-    egui::Frame::group(ui.style()).stroke(stroke).show(ui, |ui| {
-        ui.set_width(ui.available_width());
-        let unit = if ch.unit.is_empty() {
-            String::new()
-        } else {
-            format!(" ({})", ch.unit)
-        };
-        let (lo, hi) = bounds(ch);
-        let range = match ch.kind {
-            ChannelKind::Continuous { .. } => format!(" · {lo} to {hi}"),
-            ChannelKind::Discrete { .. } => String::new(),
-        };
-        let name = ui.strong(format!("{}{unit}{range}", ch.name));
-        ui.horizontal_wrapped(|ui| {
-            ui.colored_label(LEARNER, format!("learner {}", value_text(ch, line.learner)));
-            ui.colored_label(
-                EXPERT,
-                format!("suggested {}", value_text(ch, line.suggested)),
-            );
-        });
-        if !line.neighbours.is_empty() {
-            let near: Vec<String> = line.neighbours.iter().map(|&v| value_text(ch, v)).collect();
-            ui.small(format!("experts nearby: {}", near.join(", ")));
-        }
-        let v = wb.desk.draft.get(i).copied().unwrap_or(line.suggested);
-        match &ch.kind {
-            ChannelKind::Continuous { .. } => continuous_ui(wb, i, v, (lo, hi), name.id, ui, cmds),
-            ChannelKind::Discrete { choices } => {
-                ui.horizontal_wrapped(|ui| {
-                    for (k, c) in choices.iter().enumerate() {
-                        if ui.selectable_label(v as usize == k, c).clicked() {
-                            cmds.push(Command::SetValue(i, k as f32));
-                        }
-                    }
-                });
+    egui::Frame::group(ui.style())
+        .stroke(stroke)
+        .show(ui, |ui| {
+            ui.set_width(ui.available_width());
+            let unit = if ch.unit.is_empty() {
+                String::new()
+            } else {
+                format!(" ({})", ch.unit)
+            };
+            let (lo, hi) = bounds(ch);
+            let range = match ch.kind {
+                ChannelKind::Continuous { .. } => format!(" · {lo} to {hi}"),
+                ChannelKind::Discrete { .. } => String::new(),
+            };
+            let name = ui.strong(format!("{}{unit}{range}", ch.name));
+            ui.horizontal_wrapped(|ui| {
+                ui.colored_label(LEARNER, format!("learner {}", value_text(ch, line.learner)));
+                ui.colored_label(
+                    EXPERT,
+                    format!("suggested {}", value_text(ch, line.suggested)),
+                );
+            });
+            if !line.neighbours.is_empty() {
+                let near: Vec<String> =
+                    line.neighbours.iter().map(|&v| value_text(ch, v)).collect();
+                ui.small(format!("experts nearby: {}", near.join(", ")));
             }
-        }
-    });
+            let v = wb.desk.draft.get(i).copied().unwrap_or(line.suggested);
+            match &ch.kind {
+                ChannelKind::Continuous { .. } => {
+                    continuous_ui(wb, i, v, (lo, hi), name.id, ui, cmds)
+                }
+                ChannelKind::Discrete { choices } => {
+                    ui.horizontal_wrapped(|ui| {
+                        for (k, c) in choices.iter().enumerate() {
+                            if ui.selectable_label(v as usize == k, c).clicked() {
+                                cmds.push(Command::SetValue(i, k as f32));
+                            }
+                        }
+                    });
+                }
+            }
+        });
 }
 
 fn continuous_ui(
@@ -243,6 +248,7 @@ fn continuous_ui(
         }
         if r.lost_focus() {
             match text.trim().parse::<f32>() {
+                _ if text.trim().is_empty() => *text = format!("{v}"),
                 Ok(n) if n.is_finite() && (lo..=hi).contains(&n) => {
                     cmds.push(Command::SetValue(i, n))
                 }
@@ -261,7 +267,9 @@ fn continuous_ui(
 /// A square pad for two continuous channels: the learner (blue), the experts nearby and the
 /// suggestion (orange), and the value being entered (ring); click or drag to set both.
 fn pad_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
-    let [a, c] = b.channels.as_slice() else { return };
+    let [a, c] = b.channels.as_slice() else {
+        return;
+    };
     let both = matches!(a.channel.kind, ChannelKind::Continuous { .. })
         && matches!(c.channel.kind, ChannelKind::Continuous { .. });
     if !both {
@@ -284,8 +292,14 @@ fn pad_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui, cmds: &mut Vec<Comma
     p.rect_filled(rect, 2.0, ui.visuals().extreme_bg_color);
     let weak = Stroke::new(0.5, ui.visuals().weak_text_color());
     let zero = to(0.0f32.clamp(x0, x1), 0.0f32.clamp(y0, y1));
-    p.line_segment([pos2(rect.left(), zero.y), pos2(rect.right(), zero.y)], weak);
-    p.line_segment([pos2(zero.x, rect.top()), pos2(zero.x, rect.bottom())], weak);
+    p.line_segment(
+        [pos2(rect.left(), zero.y), pos2(rect.right(), zero.y)],
+        weak,
+    );
+    p.line_segment(
+        [pos2(zero.x, rect.top()), pos2(zero.x, rect.bottom())],
+        weak,
+    );
     for (x, y) in a.neighbours.iter().zip(&c.neighbours) {
         p.circle_filled(to(*x, *y), 2.5, EXPERT.gamma_multiply(0.6));
     }
@@ -295,8 +309,15 @@ fn pad_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui, cmds: &mut Vec<Comma
         wb.desk.draft.first().copied().unwrap_or(a.suggested),
         wb.desk.draft.get(1).copied().unwrap_or(c.suggested),
     );
-    p.circle_stroke(to(d.0, d.1), 6.0, Stroke::new(2.0, ui.visuals().strong_text_color()));
-    if let Some(pos) = r.interact_pointer_pos().filter(|_| r.clicked() || r.dragged()) {
+    p.circle_stroke(
+        to(d.0, d.1),
+        6.0,
+        Stroke::new(2.0, ui.visuals().strong_text_color()),
+    );
+    if let Some(pos) = r
+        .interact_pointer_pos()
+        .filter(|_| r.clicked() || r.dragged())
+    {
         let x = x0 + (pos.x - rect.left()) / rect.width() * (x1 - x0);
         let y = y0 + (rect.bottom() - pos.y) / rect.height() * (y1 - y0);
         cmds.push(Command::SetValue(0, x));
@@ -385,6 +406,9 @@ fn others_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui) {
         .filter(|m| m.round == b.round && m.episode == b.episode && m.t == b.t)
         .count();
     if stale > 0 {
-        ui.colored_label(STALE, format!("{stale} verdict(s) given for older data of this step"));
+        ui.colored_label(
+            STALE,
+            format!("{stale} verdict(s) given for older data of this step"),
+        );
     }
 }

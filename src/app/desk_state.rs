@@ -105,7 +105,11 @@ impl Workbench {
         let (Some(sig), Some(r)) = (self.signals.current.clone(), c.round(round)) else {
             return;
         };
-        if sig.round != round {
+        let s = &sig.scores;
+        let n = r.steps.len();
+        let whole = [s.novelty.len(), s.p_value.len(), s.action_gap.len()] == [n; 3]
+            && s.scale.len() == r.steps.state_dim;
+        if sig.round != round || !whole {
             return;
         }
         let settings = PlanSettings {
@@ -125,7 +129,10 @@ impl Workbench {
         let Some(sitting) = self.desk.sitting.as_mut() else {
             return;
         };
-        let Some(r) = c.round(sitting.round).filter(|_| sig.round == sitting.round) else {
+        let Some(r) = c
+            .round(sitting.round)
+            .filter(|_| sig.round == sitting.round)
+        else {
             return;
         };
         let own = self
@@ -170,14 +177,20 @@ impl Workbench {
 
     fn own_standing_action(&self, c: &crate::campaign::Campaign) -> Option<Vec<f32>> {
         let b = self.desk.brief.as_ref()?;
-        let r = self.desk.ledger.as_ref()?.standing(b.round, &b.episode, b.t)?;
+        let r = self
+            .desk
+            .ledger
+            .as_ref()?
+            .standing(b.round, &b.episode, b.t)?;
         r.correction()?.verdict.action_vector(c.spec())?.ok()
     }
 
     /// Appends a verdict on the step on the desk to the ledger, re-plans and moves on.
     pub(super) fn give_verdict(&mut self, kind: crate::review::Status) {
         let started = Instant::now();
-        let Some(c) = self.campaign.clone() else { return };
+        let Some(c) = self.campaign.clone() else {
+            return;
+        };
         let Some(b) = self.desk.brief.clone() else {
             self.status.info("no step on the desk".into());
             return;
@@ -268,9 +281,9 @@ impl Workbench {
             .map(|e| e.row);
         match next {
             Some(row) => self.go_to_row(row),
-            None if self.desk.sitting.is_some() => {
-                self.status.info("the review list has no open entry left".into())
-            }
+            None if self.desk.sitting.is_some() => self
+                .status
+                .info("the review list has no open entry left".into()),
             None => self
                 .status
                 .info("no review list yet: it appears once the round is scored".into()),
@@ -293,7 +306,12 @@ impl Workbench {
 
     /// Sets a channel's value in the desk (kept within bounds).
     pub(super) fn set_value(&mut self, channel: usize, v: f32) {
-        let Some(ch) = self.desk.brief.as_ref().and_then(|b| b.channels.get(channel)) else {
+        let Some(ch) = self
+            .desk
+            .brief
+            .as_ref()
+            .and_then(|b| b.channels.get(channel))
+        else {
             return;
         };
         let v = clamp(&ch.channel, v);
@@ -312,7 +330,11 @@ impl Workbench {
         let Some(ch) = self.desk.brief.as_ref().and_then(|b| b.channels.get(i)) else {
             return;
         };
-        let v = nudge(&ch.channel, self.desk.draft.get(i).copied().unwrap_or(0.0), steps);
+        let v = nudge(
+            &ch.channel,
+            self.desk.draft.get(i).copied().unwrap_or(0.0),
+            steps,
+        );
         self.set_value(i, v);
     }
 
@@ -328,7 +350,10 @@ impl Workbench {
     pub(super) fn take(&mut self, learner: bool) {
         let Some(b) = &self.desk.brief else { return };
         let v: Vec<f32> = if learner {
-            b.channels.iter().map(|c| clamp(&c.channel, c.learner)).collect()
+            b.channels
+                .iter()
+                .map(|c| clamp(&c.channel, c.learner))
+                .collect()
         } else {
             b.suggestion()
         };
@@ -345,7 +370,8 @@ impl Workbench {
             Ok(b) if b >= 1 => {
                 self.ui.budget = b;
                 self.start_sitting();
-                self.status.info(format!("review list planned again for {b} entries"));
+                self.status
+                    .info(format!("review list planned again for {b} entries"));
             }
             _ => self.status.error(format!(
                 "budget `{}`: needs a whole number of at least 1",
@@ -360,17 +386,21 @@ impl Workbench {
             return;
         }
         self.desk.polled = Some(Instant::now());
-        let Some(c) = self.campaign.clone() else { return };
+        let Some(c) = self.campaign.clone() else {
+            return;
+        };
         let stamps = ledger_stamps(&c.root);
         if stamps == self.desk.stamps {
             return;
         }
         self.desk.stamps = stamps;
-        self.work.tally.start("tally", "reading the ledgers", move |_| {
-            crate::ledger::read_ledgers(&c.root)
-                .map(|l| crate::consensus::tally(&c, &l))
-                .map_err(|e| e.to_string())
-        });
+        self.work
+            .tally
+            .start("tally", "reading the ledgers", move |_| {
+                crate::ledger::read_ledgers(&c.root)
+                    .map(|l| crate::consensus::tally(&c, &l))
+                    .map_err(|e| e.to_string())
+            });
     }
 
     /// Takes a new tally (from the poll) and re-plans.

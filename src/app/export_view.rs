@@ -260,7 +260,9 @@ fn result_ui(wb: &Workbench, ui: &mut egui::Ui) {
             ));
             let not: usize = m.not_applied.values().sum();
             if not > 0 {
-                ui.label(format!("{not} correction(s) not applied (step data changed or no such step)"));
+                ui.label(format!(
+                    "{not} correction(s) not applied (step data changed or no such step)"
+                ));
             }
             ui.label(format!("manifest: {}", manifest_path(out).display()));
             ui.separator();

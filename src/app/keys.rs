@@ -108,63 +108,127 @@ pub const BINDINGS: &[Binding] = &[
         "open a campaign folder",
         || Command::PickFolder,
     ),
-    bind(Key::Enter, NONE, "Enter", "save the desk's action as a correction, go to the next open entry", || {
-        Command::SaveAction
-    }),
-    bind(Key::S, NONE, "S", "skip this step (no judgement), go to the next open entry", || {
-        Command::Skip
-    }),
-    bind(Key::U, NONE, "U", "this step is unrecoverable, go to the next open entry", || {
-        Command::Unrecoverable
-    }),
-    bind(Key::Z, Modifiers::COMMAND, "Ctrl Z", "undo: retract your latest verdict and go back to its step", || {
-        Command::Undo
-    }),
-    bind(Key::N, NONE, "N", "next open entry of the review list", || {
-        Command::NextOpen
-    }),
+    bind(
+        Key::Enter,
+        NONE,
+        "Enter",
+        "save the desk's action as a correction, go to the next open entry",
+        || Command::SaveAction,
+    ),
+    bind(
+        Key::S,
+        NONE,
+        "S",
+        "skip this step (no judgement), go to the next open entry",
+        || Command::Skip,
+    ),
+    bind(
+        Key::U,
+        NONE,
+        "U",
+        "this step is unrecoverable, go to the next open entry",
+        || Command::Unrecoverable,
+    ),
+    bind(
+        Key::Z,
+        Modifiers::COMMAND,
+        "Ctrl Z",
+        "undo: retract your latest verdict and go back to its step",
+        || Command::Undo,
+    ),
+    bind(
+        Key::N,
+        NONE,
+        "N",
+        "next open entry of the review list",
+        || Command::NextOpen,
+    ),
     bind(Key::C, NONE, "C", "next action channel", || {
         Command::CycleChannel(1)
     }),
     bind(Key::C, SHIFT, "Shift C", "previous action channel", || {
         Command::CycleChannel(-1)
     }),
-    bind(Key::L, NONE, "L", "raise the channel's value (1/50 of its range, or the next choice)", || {
-        Command::Nudge(1)
-    }),
-    bind(Key::J, NONE, "J", "lower the channel's value (1/50 of its range, or the previous choice)", || {
-        Command::Nudge(-1)
-    }),
-    bind(Key::L, SHIFT, "Shift L", "raise the channel's value by 1/10 of its range", || {
-        Command::Nudge(BIG_NUDGE)
-    }),
-    bind(Key::J, SHIFT, "Shift J", "lower the channel's value by 1/10 of its range", || {
-        Command::Nudge(-BIG_NUDGE)
-    }),
-    bind(Key::G, NONE, "G", "take the suggested action (experts nearby)", || {
-        Command::TakeSuggestion
-    }),
+    bind(
+        Key::L,
+        NONE,
+        "L",
+        "raise the channel's value (1/50 of its range, or the next choice)",
+        || Command::Nudge(1),
+    ),
+    bind(
+        Key::J,
+        NONE,
+        "J",
+        "lower the channel's value (1/50 of its range, or the previous choice)",
+        || Command::Nudge(-1),
+    ),
+    bind(
+        Key::L,
+        SHIFT,
+        "Shift L",
+        "raise the channel's value by 1/10 of its range",
+        || Command::Nudge(BIG_NUDGE),
+    ),
+    bind(
+        Key::J,
+        SHIFT,
+        "Shift J",
+        "lower the channel's value by 1/10 of its range",
+        || Command::Nudge(-BIG_NUDGE),
+    ),
+    bind(
+        Key::G,
+        NONE,
+        "G",
+        "take the suggested action (experts nearby)",
+        || Command::TakeSuggestion,
+    ),
     bind(Key::K, NONE, "K", "take the learner's action", || {
         Command::TakeLearner
     }),
-    bind(Key::E, NONE, "E", "type the channel's exact value (Enter to leave the field)", || {
-        Command::Focus(FocusTarget::Exact)
-    }),
-    bind(Key::M, NONE, "M", "write a note for the next verdict", || {
-        Command::Focus(FocusTarget::Note)
-    }),
-    bind(Key::F2, NONE, "F2", "switch between episodes and the review list", || {
-        Command::ToggleShelfTab
-    }),
-    bind(Key::B, NONE, "B", "type a new budget for the review list", || {
-        Command::Focus(FocusTarget::Budget)
-    }),
-    bind(Key::P, NONE, "P", "plan the review list again with the budget", || {
-        Command::Replan
-    }),
-    bind(Key::E, Modifiers::COMMAND, "Ctrl E", "export the merged set", || {
-        Command::ToggleExport
-    }),
+    bind(
+        Key::E,
+        NONE,
+        "E",
+        "type the channel's exact value (Enter to leave the field)",
+        || Command::Focus(FocusTarget::Exact),
+    ),
+    bind(
+        Key::M,
+        NONE,
+        "M",
+        "write a note for the next verdict",
+        || Command::Focus(FocusTarget::Note),
+    ),
+    bind(
+        Key::F2,
+        NONE,
+        "F2",
+        "switch between episodes and the review list",
+        || Command::ToggleShelfTab,
+    ),
+    bind(
+        Key::B,
+        NONE,
+        "B",
+        "type a new budget for the review list",
+        || Command::Focus(FocusTarget::Budget),
+    ),
+    bind(
+        Key::P,
+        NONE,
+        "P",
+        "plan the review list again with the budget",
+        || Command::Replan,
+    ),
+    bind(
+        Key::E,
+        Modifiers::COMMAND,
+        "Ctrl E",
+        "export the merged set",
+        || Command::ToggleExport,
+    ),
     bind(Key::F1, NONE, "F1", "show / hide this help", || {
         Command::ToggleHelp
     }),

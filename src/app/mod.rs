@@ -6,8 +6,8 @@
 //! ([`jobs`]) load, project and score. Regions push [`commands::Command`]s that the
 //! [`Workbench`] applies at the end of each frame.
 
-mod apply;
 pub mod annotator;
+mod apply;
 pub mod bar;
 pub mod commands;
 pub mod desk;

@@ -4,7 +4,6 @@
 
 use super::commands::{Command, FocusTarget};
 use super::workbench::Workbench;
-use crate::review::Status;
 
 /// Draws the review list tab.
 pub fn review_list_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
@@ -52,21 +51,25 @@ fn entries_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     egui::ScrollArea::vertical()
         .auto_shrink([false, false])
         .show_rows(ui, row_h, s.entries.len(), |ui, range| {
-            for (i, e) in s.entries.iter().enumerate().skip(range.start).take(range.len()) {
+            for (i, e) in s
+                .entries
+                .iter()
+                .enumerate()
+                .skip(range.start)
+                .take(range.len())
+            {
                 let name = &t.episodes[e.episode].name;
                 let reasons: Vec<&str> = e.reasons.iter().map(|r| r.as_str()).collect();
-                let mark = match e.status {
-                    Status::Open => "·",
-                    Status::Corrected => "✔",
-                    Status::Skipped => "–",
-                    Status::Unrecoverable => "✖",
-                };
                 let text = format!(
-                    "{mark} {}. {name} t = {} · {}\n   {} · novelty {:.2}",
+                    "{}. {name} t = {} · {}\n   {} · novelty {:.2}",
                     i + 1,
                     e.t,
                     e.status.as_str(),
-                    if reasons.is_empty() { "judged off the list".into() } else { reasons.join(", ") },
+                    if reasons.is_empty() {
+                        "judged off the list".into()
+                    } else {
+                        reasons.join(", ")
+                    },
                     e.novelty
                 );
                 let b = egui::Button::selectable(here == Some(e.row), text)

@@ -11,12 +11,12 @@ use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
 use countersteer::app::signals::{ExcursionRows, RoundSignals};
-use countersteer::novelty::RoundScores;
 use countersteer::app::{UiState, Workbench};
 use countersteer::campaign::{
     ActionChannel, Campaign, CampaignFile, ChannelKind, Episode, Feature, NoveltySettings, Round,
     Spec, StepTable,
 };
+use countersteer::novelty::RoundScores;
 
 const STATE_DIM: usize = 8;
 

@@ -78,13 +78,17 @@ impl StepBrief {
                 name: f.name.clone(),
                 unit: f.unit.clone(),
                 value: steps.state(row)[i],
-                share: scores.map_or(f32::NAN, |s| s.contribution(row)[i]),
+                share: scores
+                    .and_then(|s| s.contributions.get(row * steps.state_dim + i))
+                    .copied()
+                    .unwrap_or(f32::NAN),
             })
             .collect();
         let demos = &campaign.demonstrations;
-        let near: Vec<usize> = scores.map_or(Vec::new(), |s| {
-            s.neighbour_rows(row).iter().map(|&r| r as usize).collect()
-        });
+        let near: Vec<usize> = scores
+            .and_then(|s| s.neighbours.get(row * s.k..(row + 1) * s.k))
+            .map_or(Vec::new(), |n| n.iter().map(|&r| r as usize).collect());
+        let a = steps.action_dim;
         let channels = spec
             .actions
             .iter()
@@ -92,7 +96,10 @@ impl StepBrief {
             .map(|(c, ch)| ChannelLine {
                 channel: ch.clone(),
                 learner: steps.action(row)[c],
-                suggested: scores.map_or(steps.action(row)[c], |s| s.consensus_action(row)[c]),
+                suggested: scores
+                    .and_then(|s| s.neighbour_action.get(row * a + c))
+                    .copied()
+                    .unwrap_or(steps.action(row)[c]),
                 neighbours: near
                     .iter()
                     .filter(|&&r| r < demos.len())
@@ -106,8 +113,14 @@ impl StepBrief {
             episode: steps.episodes[steps.episode_of(row)].name.clone(),
             t: steps.t[row],
             fingerprint: fingerprint(steps, row),
-            novelty: scores.map(|s| (s.novelty[row], s.p_value[row], s.flagged[row])),
-            action_gap: scores.map(|s| s.action_gap[row]),
+            novelty: scores.and_then(|s| {
+                Some((
+                    *s.novelty.get(row)?,
+                    *s.p_value.get(row)?,
+                    *s.flagged.get(row)?,
+                ))
+            }),
+            action_gap: scores.and_then(|s| s.action_gap.get(row).copied()),
             features,
             channels,
         })

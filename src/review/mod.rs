@@ -6,14 +6,14 @@
 //! writes the list to the campaign; [`sitting`] keeps the list as an annotator works through
 //! it, and [`brief`] gathers what the expert needs to judge one step.
 
+pub mod brief;
 pub mod excursions;
 pub mod kcenter;
-pub mod brief;
 pub mod plan;
 pub mod sitting;
 pub mod store;
 
-pub use excursions::{Excursion, ExcursionSettings, excursions};
 pub use brief::{ChannelLine, FeatureLine, StepBrief};
+pub use excursions::{Excursion, ExcursionSettings, excursions};
 pub use plan::{PlanSettings, Planner, Reason, ReviewEntry, ReviewList, plan, states_of_rows};
 pub use sitting::{Judgement, Sitting, SittingEntry, Status, judgements};

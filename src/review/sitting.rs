@@ -96,7 +96,14 @@ pub fn judgements(steps: &StepTable, round: u32, records: &[Record]) -> Vec<Judg
         };
         if let Some(row) = steps.find(&c.episode, c.t) {
             let status = Status::of(&c.verdict);
-            latest.insert(row, Judgement { row, status, seq: r.seq });
+            latest.insert(
+                row,
+                Judgement {
+                    row,
+                    status,
+                    seq: r.seq,
+                },
+            );
         }
     }
     let mut out: Vec<Judgement> = latest.into_values().collect();

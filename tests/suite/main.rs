@@ -16,6 +16,7 @@ mod cli_gui;
 mod cli_score_plan;
 mod conformal;
 mod demo_campaign;
+mod desk;
 mod export;
 mod export_numpy;
 mod krippendorff_fixture;

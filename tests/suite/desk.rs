@@ -1,0 +1,194 @@
+//! The correction desk and the review list, headless (egui_kittest): plan a list, give three
+//! verdicts by keyboard (an action typed exactly, a skip, an unrecoverable), undo one, and
+//! check the ledger on disk record by record; reopen and find the same list; another
+//! annotator's ledger, written by another process, appears in the desk after the poll.
+#![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
+
+use crate::common;
+
+use std::path::Path;
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+use countersteer::app::{UiState, Workbench};
+use countersteer::campaign::{LoadOptions, StepTable, load_campaign};
+use countersteer::ledger::fingerprint;
+use countersteer::progress::Progress;
+use countersteer::review::Status;
+use egui::Key;
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+use serde_json::{Value, json};
+
+fn harness(dir: &Path, annotator: &str) -> Harness<'static, Workbench> {
+    let ui = UiState {
+        annotator: annotator.into(),
+        ..UiState::default()
+    };
+    let mut wb = Workbench::new(ui);
+    wb.open(dir);
+    let mut h = Harness::builder()
+        .with_size(egui::vec2(1280.0, 800.0))
+        .with_step_dt(0.1)
+        .build_ui_state(|ui, wb: &mut Workbench| wb.show(ui), wb);
+    settle(&mut h);
+    h
+}
+
+/// Steps frames until no background work is left (or 15 s pass).
+fn settle(h: &mut Harness<'static, Workbench>) {
+    let until = Instant::now() + Duration::from_secs(15);
+    loop {
+        h.step();
+        if !h.state().busy() || Instant::now() > until {
+            break;
+        }
+        std::thread::sleep(Duration::from_millis(5));
+    }
+    h.step();
+}
+
+fn press(h: &mut Harness<'static, Workbench>, key: Key) {
+    h.key_press(key);
+    h.step();
+    h.step();
+}
+
+fn steps(dir: &Path) -> StepTable {
+    let c = load_campaign(dir, &LoadOptions::default(), &Progress::new()).unwrap();
+    c.rounds[0].steps.clone()
+}
+
+/// The ledger's records with the clock time taken out (it is the only field not known ahead).
+fn ledger_records(dir: &Path, who: &str) -> Vec<Value> {
+    let text = std::fs::read_to_string(dir.join(format!("ledgers/{who}.jsonl"))).unwrap();
+    text.lines()
+        .map(|l| {
+            let mut v: Value = serde_json::from_str(l).unwrap();
+            let time = v.as_object_mut().unwrap().remove("time").unwrap();
+            assert!(time.as_str().unwrap().ends_with('Z'), "{time}");
+            v
+        })
+        .collect()
+}
+
+fn correction(steps: &StepTable, seq: u64, row: usize, verdict: Value) -> Value {
+    let e = &steps.episodes[steps.episode_of(row)];
+    json!({
+        "seq": seq, "kind": "correction", "round": 1, "episode": e.name, "t": steps.t[row],
+        "fingerprint": fingerprint(steps, row), "verdict": verdict,
+        "annotator": "ana", "tool": countersteer::VERSION,
+    })
+}
+
+#[test]
+fn three_verdicts_by_keyboard_and_an_undo_leave_exactly_these_records() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let table = steps(dir.path());
+    let mut h = harness(dir.path(), "ana");
+    let open = h.state().desk.sitting.as_ref().unwrap().entries.len();
+    assert!(open >= 4, "the fixture round plans {open} entries");
+    assert_eq!(h.state().desk.sitting.as_ref().unwrap().done(), 0);
+
+    // N: the top open entry. E, type, Enter: steer exactly 0.125. C J: mode's first choice.
+    press(&mut h, Key::N);
+    let first = h.state().current_row().unwrap();
+    assert_eq!(
+        Some(first),
+        h.state()
+            .desk
+            .sitting
+            .as_ref()
+            .unwrap()
+            .entries
+            .first()
+            .map(|e| e.row)
+    );
+    press(&mut h, Key::E);
+    h.get_by_label("exact").type_text("0.125");
+    h.step();
+    press(&mut h, Key::Enter);
+    press(&mut h, Key::C);
+    press(&mut h, Key::J);
+    assert_eq!(h.state().desk.draft, [0.125, 0.0]);
+    press(&mut h, Key::Enter);
+    let second = h.state().current_row().unwrap();
+    assert_ne!(second, first, "saving moves to the next open entry");
+    press(&mut h, Key::S);
+    let third = h.state().current_row().unwrap();
+    press(&mut h, Key::U);
+    let fourth = h.state().current_row().unwrap();
+    assert!(![first, second, third].contains(&fourth));
+    h.key_press_modifiers(egui::Modifiers::COMMAND, Key::Z);
+    h.step();
+    h.step();
+    assert_eq!(
+        h.state().current_row(),
+        Some(third),
+        "undo goes back to the step"
+    );
+
+    let expected = vec![
+        correction(&table, 1, first, json!({"action": [0.125, "cruise"]})),
+        correction(&table, 2, second, json!("skip")),
+        correction(&table, 3, third, json!("unrecoverable")),
+        json!({"seq": 4, "kind": "retraction", "retracts": 3, "annotator": "ana",
+               "tool": countersteer::VERSION}),
+    ];
+    assert_eq!(ledger_records(dir.path(), "ana"), expected);
+
+    let list = h.state().desk.sitting.clone().unwrap();
+    let done: Vec<(usize, Status)> = list.entries[..2]
+        .iter()
+        .map(|e| (e.row, e.status))
+        .collect();
+    assert_eq!(
+        done,
+        [(first, Status::Corrected), (second, Status::Skipped)]
+    );
+    assert_eq!(list.done(), 2);
+    press(&mut h, Key::F2);
+    h.get_by_label_contains(&format!("2 / {} done", list.budget));
+
+    // Reopen (the ledger's lock goes with the window): the same list, the same statuses.
+    drop(h);
+    let h = harness(dir.path(), "ana");
+    let again = h.state().desk.sitting.clone().unwrap();
+    assert_eq!(again.entries, list.entries);
+    assert_eq!(
+        ledger_records(dir.path(), "ana").len(),
+        4,
+        "nothing rewritten"
+    );
+}
+
+#[test]
+fn another_annotators_ledger_written_meanwhile_appears_in_the_desk() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path(), "ana");
+    press(&mut h, Key::N);
+    let (episode, t) = {
+        let b = h.state().desk.brief.clone().unwrap();
+        (b.episode, b.t)
+    };
+    h.get_by_label_contains("none yet");
+    // Another process appends to ben's ledger while the window is open.
+    let out = Command::new(env!("CARGO_BIN_EXE_countersteer"))
+        .args(["correct", dir.path().to_str().unwrap(), "--round", "1"])
+        .args(["--episode", &episode, "--t", &t.to_string()])
+        .args(["--action", "-0.2,slow", "--annotator", "ben"])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    // The poll runs about once a second.
+    std::thread::sleep(Duration::from_millis(1100));
+    settle(&mut h);
+    h.get_by_label("ben: steer -0.200, mode slow");
+    h.get_by_label_contains("tally: 1 annotator(s)");
+}
