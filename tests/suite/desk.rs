@@ -192,3 +192,21 @@ fn another_annotators_ledger_written_meanwhile_appears_in_the_desk() {
     h.get_by_label("ben: steer -0.200, mode slow");
     h.get_by_label_contains("tally: 1 annotator(s)");
 }
+
+#[test]
+fn the_help_overlay_lists_every_desk_and_list_key() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path(), "ana");
+    press(&mut h, Key::F1);
+    for keys in [
+        "Enter", "S", "U", "Ctrl Z", "N", "C", "Shift C", "J", "L", "G", "K", "E", "M", "F2", "B",
+        "P", "Ctrl E",
+    ] {
+        assert!(
+            h.query_by_label(keys).is_some(),
+            "{keys} is not in the help overlay"
+        );
+    }
+    h.get_by_label_contains("undo: retract your latest verdict");
+}

@@ -19,6 +19,7 @@ mod demo_campaign;
 mod desk;
 mod export;
 mod export_numpy;
+mod export_window;
 mod krippendorff_fixture;
 mod layering;
 mod ledger_crash;
