@@ -123,7 +123,10 @@ impl Workbench {
             c.demonstrations.len(),
             c.rounds.len()
         ));
-        self.desk = Default::default();
+        self.desk = super::desk_state::Desk {
+            start_reviewing: self.desk.start_reviewing,
+            ..Default::default()
+        };
         self.desk.stamps = crate::ledger::ledger_stamps(&c.root);
         self.desk.polled = Some(std::time::Instant::now());
         self.tally = match crate::ledger::read_ledgers(&c.root) {

@@ -9,6 +9,7 @@ use crate::campaign::ChannelKind;
 use crate::review::brief::{ChannelLine, StepBrief, bounds};
 
 use super::commands::{Command, FocusTarget};
+use super::desk_state::exact_text;
 use super::workbench::Workbench;
 
 const LEARNER: Color32 = Color32::from_rgb(120, 180, 240);
@@ -44,11 +45,10 @@ fn body_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     for (i, ch) in b.channels.iter().enumerate() {
         channel_ui(wb, i, ch, ui, cmds);
     }
-    pad_ui(wb, &b, ui, cmds);
-    ui.separator();
     verdict_ui(wb, ui, cmds);
     ui.separator();
     others_ui(wb, &b, ui);
+    pad_ui(wb, &b, ui, cmds);
 }
 
 fn who_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
@@ -230,6 +230,7 @@ fn continuous_ui(
     cmds: &mut Vec<Command>,
 ) {
     let mut x = v;
+    ui.spacing_mut().slider_width = (ui.available_width() - 16.0).max(80.0);
     let r = ui.add(egui::Slider::new(&mut x, lo..=hi).show_value(false));
     if r.labelled_by(label).changed() {
         cmds.push(Command::SetValue(i, x));
@@ -248,7 +249,7 @@ fn continuous_ui(
         }
         if r.lost_focus() {
             match text.trim().parse::<f32>() {
-                _ if text.trim().is_empty() => *text = format!("{v}"),
+                _ if text.trim().is_empty() => *text = exact_text(v),
                 Ok(n) if n.is_finite() && (lo..=hi).contains(&n) => {
                     cmds.push(Command::SetValue(i, n))
                 }
@@ -257,7 +258,7 @@ fn continuous_ui(
                         "`{}` is not a number from {lo} to {hi}",
                         text.trim()
                     ));
-                    *text = format!("{v}");
+                    *text = exact_text(v);
                 }
             }
         }
@@ -276,7 +277,8 @@ fn pad_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui, cmds: &mut Vec<Comma
         return;
     }
     let ((x0, x1), (y0, y1)) = (bounds(&a.channel), bounds(&c.channel));
-    let side = ui.available_width().min(200.0);
+    ui.separator();
+    let side = ui.available_width().min(170.0);
     ui.label(format!(
         "pad: {} across, {} up",
         a.channel.name, c.channel.name

@@ -51,9 +51,29 @@ pub struct Desk {
     pub polled: Option<Instant>,
     /// Time the last verdict took from the key to the list being re-planned (for the bar).
     pub last_save: Option<Duration>,
+    /// Go to the next open entry as soon as the list is planned (`open --review`).
+    pub start_reviewing: bool,
 }
 
 impl Workbench {
+    /// Applies how the window starts: the annotator (given, remembered, or from
+    /// `$COUNTERSTEER_ANNOTATOR`) and whether to start reviewing at once.
+    pub fn begin(&mut self, start: super::Start) {
+        let env = std::env::var("COUNTERSTEER_ANNOTATOR").ok();
+        let name = start
+            .annotator
+            .or_else(|| (!self.ui.annotator.is_empty()).then(|| self.ui.annotator.clone()))
+            .or(env)
+            .filter(|n| check_annotator(n).is_ok());
+        if let Some(n) = name {
+            self.ui.annotator = n;
+        }
+        if start.review {
+            self.ui.review_tab = true;
+            self.desk.start_reviewing = true;
+        }
+    }
+
     /// Opens the annotator's ledger in the open campaign (after the name is known).
     pub(super) fn open_ledger(&mut self) {
         self.desk.ledger = None;
@@ -119,6 +139,9 @@ impl Workbench {
         self.desk.sitting = Some(Sitting::new(&r.steps, &sig.scores, round, &settings));
         self.desk.budget_text = self.ui.budget.max(1).to_string();
         self.refresh_sitting();
+        if std::mem::take(&mut self.desk.start_reviewing) {
+            self.go_next_open();
+        }
     }
 
     /// Re-plans the list from the ledgers (after a verdict, an undo or a ledger change).
@@ -171,7 +194,7 @@ impl Workbench {
         let Some(b) = &self.desk.brief else { return };
         let standing = self.own_standing_action(&c);
         self.desk.draft = standing.unwrap_or_else(|| b.suggestion());
-        self.desk.exact = self.desk.draft.iter().map(|v| format!("{v}")).collect();
+        self.desk.exact = self.desk.draft.iter().map(|&v| exact_text(v)).collect();
         self.desk.active = self.desk.active.min(b.channels.len().saturating_sub(1));
     }
 
@@ -319,7 +342,7 @@ impl Workbench {
             *d = v;
         }
         if let Some(t) = self.desk.exact.get_mut(channel) {
-            *t = format!("{v}");
+            *t = exact_text(v);
         }
         self.desk.active = channel;
     }
@@ -418,4 +441,10 @@ impl Workbench {
     pub(super) fn campaign_arc(&self) -> Option<Arc<crate::campaign::Campaign>> {
         self.campaign.clone()
     }
+}
+
+/// A channel value as the exact-number field shows it (4 decimals; what is saved is the
+/// value itself).
+pub fn exact_text(v: f32) -> String {
+    format!("{v:.4}")
 }

@@ -82,9 +82,18 @@ impl eframe::App for App {
     }
 }
 
+/// How a window starts, beyond the campaign it opens.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Start {
+    /// Annotator for this session (else the remembered one, then `$COUNTERSTEER_ANNOTATOR`).
+    pub annotator: Option<String>,
+    /// Show the review list and put its next open entry on the desk once it is planned.
+    pub review: bool,
+}
+
 /// Opens the workbench window and runs it until closed. `open` is a campaign folder to open
 /// instead of the remembered or demo one.
-pub fn run(open: Option<PathBuf>) -> Result<(), RunError> {
+pub fn run(open: Option<PathBuf>, start: Start) -> Result<(), RunError> {
     let no_display =
         std::env::var_os("DISPLAY").is_none() && std::env::var_os("WAYLAND_DISPLAY").is_none();
     if no_display && cfg!(target_os = "linux") {
@@ -109,6 +118,7 @@ pub fn run(open: Option<PathBuf>) -> Result<(), RunError> {
                 .and_then(|s| eframe::get_value(s, state::STORAGE_KEY))
                 .unwrap_or_default();
             let mut wb = Workbench::new(ui);
+            wb.begin(start);
             match startup_campaign(open.as_deref(), &wb.ui) {
                 Some(dir) => wb.open(&dir),
                 None => wb.open_demo(Path::new(DEMO_DIR)),

@@ -216,9 +216,10 @@ impl Workbench {
         self.tick_playback(ui.ctx(), &mut cmds);
         super::bar::bar_ui(self, ui, &mut cmds);
         super::status::status_ui(self, ui, &mut cmds);
+        // The desk first: it takes the full height on the right, beside the strip.
+        super::desk::desk_ui(self, ui, &mut cmds);
         super::strip::strip_ui(self, ui, &mut cmds);
         super::shelf::shelf_ui(self, ui, &mut cmds);
-        super::desk::desk_ui(self, ui, &mut cmds);
         egui::CentralPanel::default().show(ui, |ui| super::map::centre_ui(self, ui, &mut cmds));
         super::help::help_ui(self, ui.ctx(), &mut cmds);
         super::annotator::name_prompt_ui(self, ui.ctx(), &mut cmds);

@@ -59,8 +59,14 @@ pub enum Command {
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
-        None => gui::run_gui(None),
-        Some(Command::Open(a)) => gui::run_gui(Some(a.dir)),
+        None => gui::run_gui(None, Default::default()),
+        Some(Command::Open(a)) => gui::run_gui(
+            Some(a.dir),
+            crate::app::Start {
+                annotator: a.annotator,
+                review: a.review,
+            },
+        ),
         Some(Command::Check(a)) => check::run(a),
         Some(Command::Correct(a)) => correct::run(a),
         Some(Command::Tally(a)) => tally::run(a),
