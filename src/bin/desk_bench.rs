@@ -105,13 +105,18 @@ fn main() {
         s.round,
         s.entries.len()
     );
-    frame(&ctx, &mut wb, i, vec![egui::Event::Key {
-        key: egui::Key::N,
-        physical_key: None,
-        pressed: true,
-        repeat: false,
-        modifiers: egui::Modifiers::NONE,
-    }]);
+    frame(
+        &ctx,
+        &mut wb,
+        i,
+        vec![egui::Event::Key {
+            key: egui::Key::N,
+            physical_key: None,
+            pressed: true,
+            repeat: false,
+            modifiers: egui::Modifiers::NONE,
+        }],
+    );
     i += 1;
     let (mut total, mut save, mut idle) = (Vec::new(), Vec::new(), Vec::new());
     for _ in 0..verdicts {
@@ -124,7 +129,11 @@ fn main() {
             eprintln!("the desk did not move on; stopping");
             break;
         }
-        save.push(wb.desk.last_save.map_or(f64::NAN, |d| d.as_secs_f64() * 1e3));
+        save.push(
+            wb.desk
+                .last_save
+                .map_or(f64::NAN, |d| d.as_secs_f64() * 1e3),
+        );
         let t = Instant::now();
         frame(&ctx, &mut wb, i + 2, Vec::new());
         frame(&ctx, &mut wb, i + 3, Vec::new());
@@ -135,7 +144,13 @@ fn main() {
     let ((tm, t99), (sm, s99), (im, i99)) = (quantiles(total), quantiles(save), quantiles(idle));
     println!("{n} verdicts; milliseconds");
     println!("{:<58} {:>8} {:>8}", "", "median", "p99");
-    println!("{:<58} {tm:>8.2} {t99:>8.2}", "Enter to next entry drawn (2 frames, fsync, re-plan)");
-    println!("{:<58} {sm:>8.2} {s99:>8.2}", "  of which the save (append + fsync, re-plan, move)");
+    println!(
+        "{:<58} {tm:>8.2} {t99:>8.2}",
+        "Enter to next entry drawn (2 frames, fsync, re-plan)"
+    );
+    println!(
+        "{:<58} {sm:>8.2} {s99:>8.2}",
+        "  of which the save (append + fsync, re-plan, move)"
+    );
     println!("{:<58} {im:>8.2} {i99:>8.2}", "baseline: two idle frames");
 }

@@ -210,3 +210,53 @@ fn the_help_overlay_lists_every_desk_and_list_key() {
     }
     h.get_by_label_contains("undo: retract your latest verdict");
 }
+
+#[test]
+fn the_name_is_asked_once_then_the_ledger_opens() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path(), "");
+    h.get_by_label("Who is reviewing?");
+    h.get_by_label("Annotator name").type_text("ana");
+    h.step();
+    h.get_by_label("Use this name").click();
+    h.step();
+    h.step();
+    assert_eq!(h.state().ui.annotator, "ana");
+    assert!(h.query_by_label("Who is reviewing?").is_none());
+    assert!(h.state().desk.ledger.is_some());
+    assert!(dir.path().join("ledgers/ana.jsonl").is_file());
+}
+
+#[test]
+fn a_verdict_given_for_older_step_data_is_shown_as_stale() {
+    use countersteer::ledger::{Correction, Ledger, Verdict};
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let table = steps(dir.path());
+    let row = table.episodes[1].start + 5;
+    let (mut l, _) = Ledger::open(dir.path(), "ana").unwrap();
+    l.append(Correction {
+        round: 1,
+        episode: "r1-b".into(),
+        t: table.t[row],
+        fingerprint: "0123456789abcdef".into(),
+        verdict: Verdict::Skip,
+        note: None,
+    })
+    .unwrap();
+    drop(l);
+    let mut h = harness(dir.path(), "ana");
+    h.get_by_label("r1-b").click();
+    h.step();
+    for _ in 0..5 {
+        h.key_press(Key::ArrowRight);
+        h.step();
+    }
+    h.step();
+    h.get_by_label("your verdict #1: skip");
+    h.get_by_label_contains(&format!(
+        "stale: the step's data changed since this verdict (recorded 0123456789abcdef, now {})",
+        fingerprint(&table, row)
+    ));
+}

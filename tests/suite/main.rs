@@ -27,6 +27,7 @@ mod loaders;
 mod novelty_knn;
 mod plotting;
 mod review_plan;
+mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
 mod sim_closed_loop;
