@@ -260,3 +260,21 @@ fn a_verdict_given_for_older_step_data_is_shown_as_stale() {
         fingerprint(&table, row)
     ));
 }
+
+#[test]
+fn a_new_budget_typed_in_the_list_plans_again() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path(), "ana");
+    press(&mut h, Key::B);
+    assert!(h.state().ui.review_tab, "B shows the review list");
+    // The field has the focus: what is typed goes there (set directly: kittest types at the end).
+    h.state_mut().desk.budget_text = "3".into();
+    h.key_press(Key::Enter);
+    h.step();
+    h.step();
+    let s = h.state().desk.sitting.clone().unwrap();
+    assert_eq!((s.budget, s.entries.len()), (3, 3));
+    assert_eq!(h.state().ui.budget, 3);
+    h.get_by_label_contains("0 / 3 done");
+}
