@@ -49,8 +49,10 @@ pub struct Desk {
     pub stamps: Vec<(PathBuf, FileStamp)>,
     /// When the ledgers were last polled.
     pub polled: Option<Instant>,
-    /// Time the last verdict took from the key to the list being re-planned (for the bar).
+    /// Time the last verdict took: the whole save (append with fsync, re-plan, move on).
     pub last_save: Option<Duration>,
+    /// Time the last verdict's append with fsync took.
+    pub last_append: Option<Duration>,
     /// Go to the next open entry as soon as the list is planned (`open --review`).
     pub start_reviewing: bool,
 }
@@ -227,7 +229,9 @@ impl Workbench {
             self.no_ledger();
             return;
         };
-        match ledger.append(b.correction(verdict, &self.desk.note)) {
+        let appended = ledger.append(b.correction(verdict, &self.desk.note));
+        self.desk.last_append = Some(started.elapsed());
+        match appended {
             Ok(r) => {
                 self.status.info(format!(
                     "saved #{} ({}) for {} t = {}",

@@ -6,7 +6,8 @@
 //! Run: `cargo run --release --bin desk_bench [-- DIR --verdicts N]`. DIR (default
 //! `demo-data`) is copied to `target/desk-bench/` so the campaign's own ledgers are not
 //! touched; the last round is reviewed by an annotator named `bench`. Printed: median and p99
-//! of the whole latency, of the save itself (append with fsync, re-plan, move), and, as the
+//! of the whole latency, of the save itself (append with fsync, re-plan, move), of the append
+//! with fsync alone, and, as the
 //! baseline from the same run, of two idle frames.
 
 use std::path::{Path, PathBuf};
@@ -119,6 +120,7 @@ fn main() {
     );
     i += 1;
     let (mut total, mut save, mut idle) = (Vec::new(), Vec::new(), Vec::new());
+    let mut append = Vec::new();
     for _ in 0..verdicts {
         let before = wb.current_row();
         let t = Instant::now();
@@ -129,11 +131,9 @@ fn main() {
             eprintln!("the desk did not move on; stopping");
             break;
         }
-        save.push(
-            wb.desk
-                .last_save
-                .map_or(f64::NAN, |d| d.as_secs_f64() * 1e3),
-        );
+        let ms = |d: Option<Duration>| d.map_or(f64::NAN, |d| d.as_secs_f64() * 1e3);
+        save.push(ms(wb.desk.last_save));
+        append.push(ms(wb.desk.last_append));
         let t = Instant::now();
         frame(&ctx, &mut wb, i + 2, Vec::new());
         frame(&ctx, &mut wb, i + 3, Vec::new());
@@ -142,6 +142,7 @@ fn main() {
     }
     let n = total.len();
     let ((tm, t99), (sm, s99), (im, i99)) = (quantiles(total), quantiles(save), quantiles(idle));
+    let (am, a99) = quantiles(append);
     println!("{n} verdicts; milliseconds");
     println!("{:<58} {:>8} {:>8}", "", "median", "p99");
     println!(
@@ -151,6 +152,10 @@ fn main() {
     println!(
         "{:<58} {sm:>8.2} {s99:>8.2}",
         "  of which the save (append + fsync, re-plan, move)"
+    );
+    println!(
+        "{:<58} {am:>8.2} {a99:>8.2}",
+        "    of which the ledger append with fsync"
     );
     println!("{:<58} {im:>8.2} {i99:>8.2}", "baseline: two idle frames");
 }
