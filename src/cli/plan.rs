@@ -7,10 +7,12 @@ use clap::Args;
 use super::CliError;
 use super::score::{build_and_score, load};
 use crate::campaign::{Campaign, StepTable};
+use crate::ledger::read_ledgers;
 use crate::novelty::RoundScores;
 use crate::novelty::store::{load_scores, save_scores, scores_path};
+use crate::review::sitting::judgements;
 use crate::review::store::save_review_list;
-use crate::review::{PlanSettings, ReviewList, plan};
+use crate::review::{PlanSettings, ReviewList, plan, states_of_rows};
 
 /// Arguments of `plan`.
 #[derive(Debug, Args)]
@@ -77,12 +79,33 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         action_gap_min: a.action_gap,
         ..Default::default()
     };
-    let list = plan(steps, &scores, &[], &settings);
+    let judged = judged_rows(&c, a.round, steps)?;
+    if !judged.is_empty() {
+        println!(
+            "{} step(s) of round {} already judged in the ledgers: the list avoids their ground",
+            judged.len(),
+            a.round
+        );
+    }
+    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
     print_list(steps, &list);
     let path = save_review_list(&c.root, a.round, steps, &list)
         .map_err(|e| CliError::invalid(e.to_string()))?;
     println!("wrote {}", path.display());
     Ok(())
+}
+
+/// Rows of the round with a standing verdict in any annotator's ledger, each once.
+fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>, CliError> {
+    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::invalid(e.to_string()))?;
+    let mut rows: Vec<usize> = ledgers
+        .iter()
+        .flat_map(|l| judgements(steps, round, &l.records))
+        .map(|j| j.row)
+        .collect();
+    rows.sort_unstable();
+    rows.dedup();
+    Ok(rows)
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {

@@ -74,6 +74,44 @@ fn score_then_plan_write_their_files_and_readable_summaries() {
             .iter()
             .all(|l| l["episode"].as_str().unwrap().starts_with("learner-"))
     );
+
+    // A verdict in a ledger seeds the next plan: that step is covered ground, not asked again.
+    let (episode, t) = (
+        lines[0]["episode"].as_str().unwrap(),
+        lines[0]["t"].to_string(),
+    );
+    let (ok, _, err) = run(&[
+        "correct",
+        d,
+        "--annotator",
+        "ana",
+        "--round",
+        "1",
+        "--episode",
+        episode,
+        "--t",
+        &t,
+        "--skip",
+    ]);
+    assert!(ok, "{err}");
+    let (ok, out, err) = run(&["plan", d, "--round", "1", "--budget", "7"]);
+    assert!(ok, "{err}");
+    assert!(
+        out.contains("1 step(s) of round 1 already judged in the ledgers"),
+        "{out}"
+    );
+    let text = std::fs::read_to_string(dir.path().join("analysis/1/review-list.jsonl")).unwrap();
+    let again: Vec<serde_json::Value> = text
+        .lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect();
+    assert_eq!(again.len(), 7);
+    assert!(
+        again
+            .iter()
+            .all(|l| !(l["episode"] == lines[0]["episode"] && l["t"] == lines[0]["t"])),
+        "the judged step was asked again"
+    );
 }
 
 #[test]
