@@ -32,4 +32,5 @@ mod ridge_fixture;
 mod safety_caution;
 mod sim_closed_loop;
 mod study;
+mod ui_sitting;
 mod workbench;
