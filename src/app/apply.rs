@@ -293,6 +293,7 @@ impl Workbench {
             Command::GoToRow(r) => self.go_to_row(r),
             Command::CycleChannel(d) => self.cycle_channel(d),
             Command::Nudge(n) => self.nudge_active(n),
+            Command::Choose(k) => self.choose_active(k),
             Command::SetValue(i, v) => self.set_value(i, v),
             Command::TakeSuggestion => self.take(false),
             Command::TakeLearner => self.take(true),

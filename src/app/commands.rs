@@ -51,6 +51,8 @@ pub enum Command {
     CycleChannel(i32),
     /// Move the active channel's value by this many keyboard steps.
     Nudge(i32),
+    /// Pick the active channel's choice with this index (discrete channels only).
+    Choose(usize),
     /// Set a channel's value in the desk (channel, value).
     SetValue(usize, f32),
     /// Put the suggested action (the experts nearby) in the desk.

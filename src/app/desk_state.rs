@@ -365,6 +365,30 @@ impl Workbench {
         self.set_value(i, v);
     }
 
+    /// Picks choice `k` of the active channel when it is a discrete channel with that many
+    /// choices; says why not otherwise.
+    pub(super) fn choose_active(&mut self, k: usize) {
+        let i = self.desk.active;
+        let Some(ch) = self.desk.brief.as_ref().and_then(|b| b.channels.get(i)) else {
+            return;
+        };
+        match &ch.channel.kind {
+            crate::campaign::ChannelKind::Discrete { choices } if k < choices.len() => {
+                self.set_value(i, k as f32);
+            }
+            crate::campaign::ChannelKind::Discrete { choices } => self.status.info(format!(
+                "`{}` has {} choices; key {} picks none",
+                ch.channel.name,
+                choices.len(),
+                k + 1
+            )),
+            crate::campaign::ChannelKind::Continuous { .. } => self.status.info(format!(
+                "`{}` is continuous: digits pick choices of choice channels (C moves between channels)",
+                ch.channel.name
+            )),
+        }
+    }
+
     /// Makes another channel the active one.
     pub(super) fn cycle_channel(&mut self, d: i32) {
         let n = self.desk.brief.as_ref().map_or(0, |b| b.channels.len()) as i32;

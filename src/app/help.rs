@@ -18,7 +18,7 @@ pub fn help_ui(wb: &mut Workbench, ctx: &egui::Context, cmds: &mut Vec<Command>)
         .anchor(egui::Align2::CENTER_CENTER, egui::Vec2::ZERO)
         .show(ctx, |ui| {
             egui::Grid::new("keys").num_columns(2).striped(true).show(ui, |ui| {
-                for b in BINDINGS {
+                for b in BINDINGS.iter().filter(|b| !b.keys.is_empty()) {
                     ui.monospace(b.keys);
                     ui.label(b.does);
                     ui.end_row();

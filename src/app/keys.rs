@@ -11,7 +11,7 @@ pub struct Binding {
     pub key: Key,
     /// Modifiers that must be held.
     pub modifiers: Modifiers,
-    /// How the overlay names the keys.
+    /// How the overlay names the keys; empty for a key listed with the binding before it.
     pub keys: &'static str,
     /// What it does, in words.
     pub does: &'static str,
@@ -177,6 +177,21 @@ pub const BINDINGS: &[Binding] = &[
         "lower the channel's value by 1/10 of its range",
         || Command::Nudge(-BIG_NUDGE),
     ),
+    bind(
+        Key::Num1,
+        NONE,
+        "1 ... 9",
+        "pick the active choice channel's 1st ... 9th choice",
+        || Command::Choose(0),
+    ),
+    bind(Key::Num2, NONE, "", "", || Command::Choose(1)),
+    bind(Key::Num3, NONE, "", "", || Command::Choose(2)),
+    bind(Key::Num4, NONE, "", "", || Command::Choose(3)),
+    bind(Key::Num5, NONE, "", "", || Command::Choose(4)),
+    bind(Key::Num6, NONE, "", "", || Command::Choose(5)),
+    bind(Key::Num7, NONE, "", "", || Command::Choose(6)),
+    bind(Key::Num8, NONE, "", "", || Command::Choose(7)),
+    bind(Key::Num9, NONE, "", "", || Command::Choose(8)),
     bind(
         Key::G,
         NONE,

@@ -278,3 +278,28 @@ fn a_new_budget_typed_in_the_list_plans_again() {
     assert_eq!(h.state().ui.budget, 3);
     h.get_by_label_contains("0 / 3 done");
 }
+
+#[test]
+fn digit_keys_pick_choices_of_the_active_choice_channel_only() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path(), "ana");
+    press(&mut h, Key::N);
+    press(&mut h, Key::K); // the learner's action: a known draft to start from
+    let start = h.state().desk.draft.clone();
+    // Channel 0 (steer) is continuous: a digit changes nothing and says why.
+    press(&mut h, Key::Num2);
+    assert_eq!(h.state().desk.draft, start);
+    // C: channel 1, the mode, with the choices cruise and slow.
+    press(&mut h, Key::C);
+    press(&mut h, Key::Num2);
+    assert_eq!(h.state().desk.draft[1], 1.0, "2 picks `slow`");
+    press(&mut h, Key::Num1);
+    assert_eq!(h.state().desk.draft[1], 0.0, "1 picks `cruise`");
+    press(&mut h, Key::Num3);
+    assert_eq!(h.state().desk.draft[1], 0.0, "there is no third choice");
+    assert_eq!(h.state().desk.draft[0], start[0], "steer untouched");
+    // The help overlay lists the digits once.
+    press(&mut h, Key::F1);
+    assert!(h.query_by_label("1 ... 9").is_some());
+}
