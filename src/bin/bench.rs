@@ -162,18 +162,11 @@ fn w1(a: &Args) {
             time_cpu(|| score_steps(&model, &demos, &channels, &steps, &p).expect("score"));
         peak = peak.max(status_kb("VmHWM:") - before);
         let rows = all_rows(&steps);
-        let (_h, q, q_cpu) = time_cpu(|| {
-            knn_rows(
-                model.index(),
-                model.inv_scale(),
-                &steps,
-                &rows,
-                K,
-                false,
-                "",
-                &p,
-            )
-        });
+        let ids: Vec<u32> = (0..demos.len() as u32).collect();
+        let tree =
+            KnnIndex::build_plain(&demos.states, 16, model.inv_scale(), &ids).expect("plain tree");
+        let (_h, q, q_cpu) =
+            time_cpu(|| knn_rows(&tree, model.inv_scale(), &steps, &rows, K, false, "", &p));
         cpu.push((s_cpu, q_cpu));
         build.push(b);
         score.push(s);
@@ -185,6 +178,7 @@ fn w1(a: &Args) {
     let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
     let brute = brute_per_query(&demos, model.inv_scale(), &steps, 100);
     let raw = (demos.states.len() + steps.states.len()) as f64 * 4.0 / 1e6;
+    println!("search path                 {}", model.index().path());
     println!(
         "index build + calibration   {b:8.3} s  ({} calibration states)",
         model.conformal().len()
@@ -196,7 +190,7 @@ fn w1(a: &Args) {
         verdict(b + s < 3.0)
     );
     println!(
-        "baseline plain queries      {q:8.3} s  for the same 100k steps (k-NN only; {q_cpu:.2} CPU s); scoring is {:.1}x faster",
+        "baseline plain queries      {q:8.3} s  for the same 100k steps (plain 16-d tree, k-NN only; {q_cpu:.2} CPU s); scoring is {:.1}x faster",
         q / s
     );
     println!("baseline plain end to end   {:8.3} s", b + q);
@@ -223,6 +217,7 @@ fn w2(a: &Args) {
     let inv: Vec<f32> = scales(&demos).iter().map(|s| 1.0 / s).collect();
     let ids: Vec<u32> = (0..demos.len() as u32).collect();
     let (index, build) = time(|| KnnIndex::build(&demos.states, 16, &inv, &ids).expect("index"));
+    let tree = KnnIndex::build_plain(&demos.states, 16, &inv, &ids).expect("plain tree");
     let rows = all_rows(&queries);
     let sub: Vec<usize> = rows.iter().copied().take(100_000).collect();
     let (mut seeded, mut plain) = (vec![], vec![]);
@@ -236,17 +231,18 @@ fn w2(a: &Args) {
             .map(|h| f64::from(h[K - 1].1).sqrt())
             .sum::<f64>()
             / rows.len() as f64;
-        plain.push(time(|| knn_rows(&index, &inv, &queries, &sub, K, false, "", &p)).1);
+        plain.push(time(|| knn_rows(&tree, &inv, &queries, &sub, K, false, "", &p)).1);
     }
     let s = rows.len() as f64 / median(seeded);
     let q = sub.len() as f64 / median(plain);
+    println!("search path                 {}", index.path());
     println!("index build                 {build:8.3} s");
     println!(
         "seeded queries              {s:10.0} queries/s ({:.2} us/query)",
         1e6 / s
     );
     println!(
-        "baseline plain queries      {q:10.0} queries/s ({:.2} us/query, first 100k)",
+        "baseline plain queries      {q:10.0} queries/s ({:.2} us/query, plain 16-d tree, first 100k)",
         1e6 / q
     );
     println!("seeded / plain              {:8.2}x", s / q);

@@ -3,7 +3,11 @@
 //! kiddo fixes a tree's dimension at compile time, so states are zero-padded up to the next of
 //! [`TREE_SIZES`]: every padded coordinate is 0 for demonstrations and queries alike, so padding
 //! changes no distance. States wider than [`MAX_TREE_DIM`] take the principal-subspace path of
-//! [`super::subspace`], which is still exact (a lower-bound tree plus exact refinement).
+//! [`super::subspace`], which is still exact (a lower-bound tree plus exact refinement); so do
+//! states wider than 8 whose demonstrations lie close to a subspace that fits a narrower tree
+//! than the plain one (see [`choose_path`]). Measured on smooth synthetic trajectories with a
+//! 6-dimensional latent path (`bench`, W3: 64 features): a 15-component tree took 45 s for
+//! build, calibration and scoring, a 7-component tree 5.7 s, with the same exact answers.
 //!
 //! Distances handed out by this module are SQUARED Euclidean distances in scaled units.
 
@@ -12,7 +16,7 @@ use std::num::NonZeroUsize;
 use kiddo::ImmutableKdTree;
 use kiddo::dist::SquaredEuclidean;
 
-use super::subspace::Subspace;
+use super::subspace::{Subspace, components_for, principal_axes};
 
 /// Tree dimensions compiled in; a state of dimension `d` uses the smallest size `>= d`.
 pub const TREE_SIZES: [usize; 4] = [4, 8, 16, 32];
@@ -95,6 +99,35 @@ where
     }
 }
 
+/// The compiled tree width a state of dimension `d` is padded to (`usize::MAX` when wider
+/// than every tree).
+fn tree_width(d: usize) -> usize {
+    TREE_SIZES
+        .iter()
+        .copied()
+        .find(|&w| w >= d)
+        .unwrap_or(usize::MAX)
+}
+
+/// Which search path suits these demonstrations: `None` for a plain tree, or the principal
+/// axes and the number of components for the subspace path. States of up to 8 features
+/// always take a plain tree; wider ones take the subspace when its tree (components plus the
+/// residual norm) is narrower than the plain tree would be, and always above
+/// [`MAX_TREE_DIM`].
+pub fn choose_path(
+    states: &[f32],
+    dim: usize,
+    inv_scale: &[f32],
+    rows: &[u32],
+) -> Option<(super::subspace::Axes, usize)> {
+    if dim <= 8 || rows.is_empty() {
+        return None;
+    }
+    let axes = principal_axes(states, dim, inv_scale, rows);
+    let m = components_for(&axes.values);
+    (tree_width(m + 1) < tree_width(dim)).then_some((axes, m))
+}
+
 enum Kind {
     Tree(Box<dyn TreeBackend>),
     Subspace(Box<Subspace>),
@@ -126,16 +159,35 @@ impl KnnIndex {
         inv_scale: &[f32],
         rows: &[u32],
     ) -> Result<Self, String> {
-        let kind = if dim <= MAX_TREE_DIM {
-            let axis = |r: u32, j: usize| states[r as usize * dim + j] * inv_scale[j];
-            Kind::Tree(build_tree(dim, rows, axis)?)
-        } else {
-            Kind::Subspace(Box::new(Subspace::build(states, dim, inv_scale, rows)?))
+        let kind = match choose_path(states, dim, inv_scale, rows) {
+            None => {
+                let axis = |r: u32, j: usize| states[r as usize * dim + j] * inv_scale[j];
+                Kind::Tree(build_tree(dim, rows, axis)?)
+            }
+            Some((axes, m)) => Kind::Subspace(Box::new(Subspace::build(
+                states, dim, inv_scale, rows, &axes, m,
+            )?)),
         };
         Ok(KnnIndex {
             dim,
             len: rows.len(),
             kind,
+        })
+    }
+
+    /// A plain tree whatever the data (states of at most [`MAX_TREE_DIM`] features): the
+    /// benchmark's baseline.
+    pub fn build_plain(
+        states: &[f32],
+        dim: usize,
+        inv_scale: &[f32],
+        rows: &[u32],
+    ) -> Result<Self, String> {
+        let axis = |r: u32, j: usize| states[r as usize * dim + j] * inv_scale[j];
+        Ok(KnnIndex {
+            dim,
+            len: rows.len(),
+            kind: Kind::Tree(build_tree(dim, rows, axis)?),
         })
     }
 

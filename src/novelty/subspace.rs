@@ -1,9 +1,10 @@
-//! The search path for states wider than the widest compiled tree.
+//! The search path for wide states: a tree over a principal subspace.
 //!
 //! kiddo picks split axes by cycling through the dimensions, so with ~20 tree levels most axes
-//! of a 64-wide state are never split and a plain tree degrades to brute force. Trajectory
-//! data is usually close to a low-dimensional subspace, so this path builds the tree over the
-//! state's leading principal components (principal component analysis of the scaled
+//! of a 64-wide state are never split and a plain tree degrades to brute force; already at 16
+//! dimensions each axis is split only about once. Trajectory data is usually close to a
+//! low-dimensional subspace, so this path builds the tree over the state's leading principal
+//! components (principal component analysis of the scaled
 //! demonstrations; Jolliffe 2002) plus one more coordinate: the norm of the residual outside
 //! that subspace (the Q statistic of Jackson & Mudholkar 1979). For any two states,
 //! `|P(x - y)|^2 + (|R x| - |R y|)^2 <= |x - y|^2` (Pythagoras plus the reverse triangle
@@ -15,8 +16,11 @@
 
 use super::index::{Hit, TreeBackend, build_tree};
 
-/// Tree dimension of the subspace path: principal components plus the residual norm.
+/// Widest tree of the subspace path: principal components plus the residual norm.
 pub const SUBSPACE_TREE_DIM: usize = 16;
+/// Share of the scaled demonstrations' variance the components must hold for a narrower tree
+/// to be used (see [`components_for`]).
+pub const SUBSPACE_VARIANCE: f64 = 0.99;
 /// Rows sampled (evenly) to estimate the covariance.
 pub const COVARIANCE_SAMPLE_ROWS: usize = 50_000;
 
@@ -32,21 +36,52 @@ pub struct Subspace {
     tree: Box<dyn TreeBackend>,
 }
 
+/// Principal axes of scaled states: the mean, and every eigenpair of the covariance,
+/// largest eigenvalue first.
+#[derive(Debug, Clone)]
+pub struct Axes {
+    dim: usize,
+    mean: Vec<f32>,
+    /// Eigenvalues, descending.
+    pub values: Vec<f64>,
+    /// Eigenvectors in the same order, each `dim` long, row-major.
+    vectors: Vec<f32>,
+}
+
+/// How many components the tree should hold for eigenvalues `values` (descending): the most
+/// that fit a compiled tree of 4, 8 or 16 dimensions with the residual norm (3, 7 or 15),
+/// taking the narrowest tree whose components hold [`SUBSPACE_VARIANCE`] of the variance,
+/// and the widest when none does. Padding is free, so a tree gets as many components as fit.
+pub fn components_for(values: &[f64]) -> usize {
+    let total: f64 = values.iter().map(|v| v.max(0.0)).sum();
+    let held = |m: usize| values.iter().take(m).map(|v| v.max(0.0)).sum::<f64>();
+    for width in [4, 8, SUBSPACE_TREE_DIM] {
+        let m = (width - 1).min(values.len());
+        if total <= 0.0 || held(m) >= SUBSPACE_VARIANCE * total {
+            return m;
+        }
+    }
+    (SUBSPACE_TREE_DIM - 1).min(values.len())
+}
+
 impl Subspace {
-    /// Builds the index over `rows` of `states` scaled by `inv_scale`.
+    /// Builds the index over `rows` of `states` scaled by `inv_scale`, on the first `m` of
+    /// `axes` (see [`principal_axes`] and [`components_for`]).
     pub fn build(
         states: &[f32],
         dim: usize,
         inv_scale: &[f32],
         rows: &[u32],
+        axes: &Axes,
+        m: usize,
     ) -> Result<Self, String> {
-        let m = (SUBSPACE_TREE_DIM - 1).min(dim);
+        let m = m.min(dim);
         let mut points = Vec::with_capacity(rows.len() * dim);
         for &r in rows {
             let s = &states[r as usize * dim..(r as usize + 1) * dim];
             points.extend(s.iter().zip(inv_scale).map(|(x, i)| x * i));
         }
-        let (mean, basis) = principal_basis(&points, dim, m);
+        let (mean, basis) = (axes.mean.clone(), axes.vectors[..m * dim].to_vec());
         let mut s = Subspace {
             dim,
             m,
@@ -121,27 +156,35 @@ fn dot(a: &[f32], b: &[f32]) -> f32 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
 }
 
-/// Mean and the `m` leading eigenvectors of the covariance of row-major `points`.
-fn principal_basis(points: &[f32], dim: usize, m: usize) -> (Vec<f32>, Vec<f32>) {
-    let n = points.len() / dim.max(1);
+/// Principal axes of `rows` of `states` scaled by `inv_scale`, from at most
+/// [`COVARIANCE_SAMPLE_ROWS`] rows taken at an even stride.
+pub fn principal_axes(states: &[f32], dim: usize, inv_scale: &[f32], rows: &[u32]) -> Axes {
+    let n = rows.len();
     let stride = n.div_ceil(COVARIANCE_SAMPLE_ROWS).max(1);
-    let sample: Vec<&[f32]> = (0..n)
+    let sample: Vec<Vec<f64>> = (0..n)
         .step_by(stride)
-        .map(|i| &points[i * dim..(i + 1) * dim])
+        .map(|i| {
+            let r = rows[i] as usize;
+            states[r * dim..(r + 1) * dim]
+                .iter()
+                .zip(inv_scale)
+                .map(|(x, s)| f64::from(x * s))
+                .collect()
+        })
         .collect();
     let count = sample.len().max(1) as f64;
     let mut mean = vec![0.0f64; dim];
     for p in &sample {
-        for (m, &x) in mean.iter_mut().zip(*p) {
-            *m += f64::from(x) / count;
+        for (m, &x) in mean.iter_mut().zip(p) {
+            *m += x / count;
         }
     }
     let mut cov = vec![0.0f64; dim * dim];
     for p in &sample {
         for a in 0..dim {
-            let da = f64::from(p[a]) - mean[a];
+            let da = p[a] - mean[a];
             for b in a..dim {
-                cov[a * dim + b] += da * (f64::from(p[b]) - mean[b]) / count;
+                cov[a * dim + b] += da * (p[b] - mean[b]) / count;
             }
         }
     }
@@ -153,11 +196,23 @@ fn principal_basis(points: &[f32], dim: usize, m: usize) -> (Vec<f32>, Vec<f32>)
     let (values, vectors) = jacobi_eigen(cov, dim);
     let mut order: Vec<usize> = (0..dim).collect();
     order.sort_by(|&a, &b| values[b].total_cmp(&values[a]));
-    let mut basis = Vec::with_capacity(m * dim);
-    for &c in order.iter().take(m) {
+    let mut basis = Vec::with_capacity(dim * dim);
+    for &c in &order {
         basis.extend((0..dim).map(|r| vectors[r * dim + c] as f32));
     }
-    (mean.iter().map(|&x| x as f32).collect(), basis)
+    Axes {
+        dim,
+        mean: mean.iter().map(|&x| x as f32).collect(),
+        values: order.iter().map(|&c| values[c]).collect(),
+        vectors: basis,
+    }
+}
+
+impl Axes {
+    /// State dimension.
+    pub fn dim(&self) -> usize {
+        self.dim
+    }
 }
 
 /// Eigenvalues and eigenvectors (columns of a row-major matrix) of a symmetric matrix by the
@@ -215,6 +270,20 @@ fn rotate(a: &mut [f64], v: &mut [f64], n: usize, p: usize, q: usize) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn components_fill_the_narrowest_tree_that_holds_the_variance() {
+        // Worked by hand. Total 10: three components hold 9.0 (90 %), seven hold 9.95
+        // (99.5 % >= 99 %), so the 8-wide tree with 7 components.
+        let v = [5.0, 3.0, 1.0, 0.5, 0.3, 0.1, 0.05, 0.03, 0.02];
+        assert_eq!(components_for(&v), 7);
+        // One dominant axis: three components hold 100 %, the 4-wide tree.
+        assert_eq!(components_for(&[1.0, 0.0, 0.0, 0.0, 0.0, 0.0]), 3);
+        // Twenty equal axes: 15 hold 75 %, no tree holds 99 %: the widest, 15 components.
+        assert_eq!(components_for(&[1.0; 20]), 15);
+        // Fewer axes than a tree's components: all of them.
+        assert_eq!(components_for(&[2.0, 1.0]), 2);
+    }
 
     #[test]
     fn jacobi_finds_the_eigenpairs_of_a_textbook_matrix() {

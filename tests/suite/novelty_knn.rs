@@ -7,14 +7,26 @@ use countersteer::novelty::query::{brute_knn, knn_rows};
 use countersteer::novelty::synth::{Rng, SynthSpec, trajectories};
 use countersteer::progress::Progress;
 
-fn check_against_brute_force(dim: usize) {
+/// Which index a check builds.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Build {
+    /// `KnnIndex::build`: the path chosen from the data.
+    Chosen,
+    /// `KnnIndex::build_plain`: a plain tree whatever the data.
+    PlainTree,
+}
+
+fn check_against_brute_force(dim: usize, build: Build) -> String {
     let mut spec = SynthSpec::expert(6, 150, dim, 11);
     spec.latent = 4.min(dim);
     let demos = trajectories(&spec);
     let mut rng = Rng::new(dim as u64);
     let inv: Vec<f32> = (0..dim).map(|_| 0.5 + rng.uniform() as f32).collect();
     let rows: Vec<u32> = (0..demos.len() as u32).collect();
-    let index = KnnIndex::build(&demos.states, dim, &inv, &rows).unwrap();
+    let index = match build {
+        Build::Chosen => KnnIndex::build(&demos.states, dim, &inv, &rows).unwrap(),
+        Build::PlainTree => KnnIndex::build_plain(&demos.states, dim, &inv, &rows).unwrap(),
+    };
     let mut hits = Vec::new();
     for _ in 0..40 {
         let base = (rng.uniform() * demos.len() as f64) as usize;
@@ -37,13 +49,27 @@ fn check_against_brute_force(dim: usize) {
         index.knn(&q, 5, want[0].1.sqrt() * 0.5, &mut hits);
         assert!((hits[4].1 - want[4].1).abs() <= 1e-4 * want[4].1.max(1e-3));
     }
+    index.path()
 }
 
 #[test]
 fn knn_equals_brute_force_in_every_dispatched_size() {
-    // 3 and 5 are padded (to 4 and 8), 16 exact, 32 the largest tree, 40 the subspace path.
-    for dim in [2, 3, 5, 16, MAX_TREE_DIM, 40] {
-        check_against_brute_force(dim);
+    // Plain trees: 3 and 5 are padded (to 4 and 8), 16 exact, 32 the largest tree.
+    for dim in [2, 3, 5, 16, MAX_TREE_DIM] {
+        let path = check_against_brute_force(dim, Build::PlainTree);
+        assert!(path.starts_with("k-d tree"), "{path}");
+    }
+    // As chosen from the data: small states stay on a plain tree; the 4-dimensional latent
+    // path of the wider ones fits 3 or 7 principal components plus the residual norm.
+    for (dim, want) in [
+        (3, "k-d tree, 3 dimensions"),
+        (8, "k-d tree, 8 dimensions"),
+        (16, "principal subspace of 7 components"),
+        (MAX_TREE_DIM, "principal subspace of 7 components"),
+        (40, "principal subspace of 7 components"),
+    ] {
+        let path = check_against_brute_force(dim, Build::Chosen);
+        assert!(path.starts_with(want), "dim {dim}: {path}");
     }
 }
 
