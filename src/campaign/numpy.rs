@@ -50,9 +50,48 @@ pub struct Array {
     pub values: Values,
 }
 
+/// Longest accepted .npy header, in bytes. NumPy's own reader refuses headers over 10,000
+/// bytes by default; a longer declared length is refused before anything is allocated for it.
+pub const MAX_HEADER_BYTES: u64 = 64 << 10;
+
+/// Checks the fixed start of a .npy stream (magic, version, header length) before the header
+/// is read, and hands back a reader that still yields those bytes.
+fn checked_start<R: Read>(mut r: R) -> Result<impl Read, String> {
+    let mut head = [0u8; 12];
+    let mut got = 0;
+    while got < head.len() {
+        match r.read(&mut head[got..]) {
+            Ok(0) => break,
+            Ok(n) => got += n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(format!("not a NumPy array: {e}")),
+        }
+    }
+    if got < 10 || &head[..6] != b"\x93NUMPY" {
+        return Err("not a NumPy array: no `\\x93NUMPY` magic at the start".into());
+    }
+    let header_len = match head[6] {
+        1 => u64::from(u16::from_le_bytes([head[8], head[9]])),
+        _ if got == 12 => u64::from(u32::from_le_bytes([head[8], head[9], head[10], head[11]])),
+        _ => return Err("not a NumPy array: truncated header".into()),
+    };
+    if header_len > MAX_HEADER_BYTES {
+        return Err(format!(
+            "header declares {header_len} bytes of description; at most {MAX_HEADER_BYTES} are accepted"
+        ));
+    }
+    Ok(std::io::Cursor::new(head[..got].to_vec()).chain(r))
+}
+
+/// Rows (first dimension) an array's header declares, reading only the header.
+pub fn declared_rows<R: Read>(r: R) -> Result<u64, String> {
+    let npy = NpyFile::new(checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
+    Ok(npy.shape().first().copied().unwrap_or(1))
+}
+
 /// Reads an array, refusing a declared size larger than `available` bytes.
 pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
-    let npy = NpyFile::new(r).map_err(|e| format!("not a NumPy array: {e}"))?;
+    let npy = NpyFile::new(checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
     let shape = npy.shape().to_vec();
     let count = shape
         .iter()
@@ -180,6 +219,10 @@ fn to_c_order(v: Values, shape: &[u64]) -> Values {
 pub trait ArraySource {
     /// Reads the named array, `Ok(None)` when absent.
     fn array(&mut self, name: &str) -> Result<Option<Array>, String>;
+
+    /// The rows the named array's header declares, reading nothing else; `Ok(None)` when
+    /// absent. Lets a reader refuse an oversized array before allocating for it.
+    fn rows(&mut self, name: &str) -> Result<Option<u64>, String>;
 }
 
 /// Arrays of an `.npz` archive.
@@ -213,29 +256,68 @@ impl ArraySource for NpzSource {
             Err(e) => Err(format!("member `{member}`: {e}")),
         }
     }
+
+    fn rows(&mut self, name: &str) -> Result<Option<u64>, String> {
+        let member = npyz::npz::file_name_from_array_name(name);
+        match self.0.zip_archive().by_name(&member) {
+            Ok(f) => declared_rows(f)
+                .map(Some)
+                .map_err(|e| format!("member `{member}`: {e}")),
+            Err(npyz::zip::result::ZipError::FileNotFound) => Ok(None),
+            Err(e) => Err(format!("member `{member}`: {e}")),
+        }
+    }
 }
 
-/// Arrays of `<stem>.<name>.npy` files in one folder.
+/// Arrays of `<stem>.<name>.npy` files in one folder of a campaign.
 pub struct NpySetSource {
-    /// Folder of the files.
+    /// The campaign folder: no file is read from outside it, even through a link.
+    pub root: std::path::PathBuf,
+    /// Folder of the files, relative to `root`.
     pub dir: std::path::PathBuf,
     /// Shared stem.
     pub stem: String,
 }
 
+impl NpySetSource {
+    fn open(&self, name: &str) -> Result<Option<File>, String> {
+        let file = format!("{}.{name}.npy", self.stem);
+        let path = match super::confine::confined(&self.root, &self.dir.join(&file)) {
+            Ok(p) => p,
+            Err(super::confine::Refused::Missing) => return Ok(None),
+            Err(e) => return Err(format!("{file}: {e}")),
+        };
+        File::open(&path)
+            .map(Some)
+            .map_err(|e| format!("{file}: {e}"))
+    }
+}
+
 impl ArraySource for NpySetSource {
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
-        let path = self.dir.join(format!("{}.{name}.npy", self.stem));
-        let f = match File::open(&path) {
-            Ok(f) => f,
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(None),
-            Err(e) => return Err(format!("{}: {e}", path.display())),
+        let Some(f) = self.open(name)? else {
+            return Ok(None);
         };
         let size = f.metadata().map(|m| m.len()).unwrap_or(0);
         read_array(BufReader::new(f), size)
             .map(Some)
             .map_err(|e| format!("{name}.npy: {e}"))
     }
+
+    fn rows(&mut self, name: &str) -> Result<Option<u64>, String> {
+        let Some(f) = self.open(name)? else {
+            return Ok(None);
+        };
+        declared_rows(BufReader::new(f))
+            .map(Some)
+            .map_err(|e| format!("{name}.npy: {e}"))
+    }
+}
+
+fn too_many(rows: u64, cap: u64) -> String {
+    format!(
+        "declares {rows} rows; a file may hold at most {cap} records (split it, or raise the record cap)"
+    )
 }
 
 fn numbers(a: &Array) -> Vec<f64> {
@@ -256,22 +338,41 @@ pub fn read_numpy(
     progress: &Progress,
 ) {
     let (d, a) = (checker.spec().state_dim(), checker.spec().action_dim());
-    let mut get = |name: &str, required: bool, log: &mut ProblemLog| match src.array(name) {
-        Ok(Some(arr)) => Some(arr),
-        Ok(None) => {
-            if required {
+    let cap = b.record_cap() as u64;
+    let mut get = |name: &str, required: bool, log: &mut ProblemLog| {
+        match src.rows(name) {
+            Ok(Some(rows)) if rows > cap => {
                 log.error(
-                    ProblemKind::MissingColumn,
+                    ProblemKind::TooMany,
                     Location::File,
                     name,
-                    format!("array `{name}` is missing"),
+                    too_many(rows, cap),
                 );
+                return None;
             }
-            None
+            Ok(Some(_)) => {}
+            Ok(None) => {
+                if required {
+                    log.error(
+                        ProblemKind::MissingColumn,
+                        Location::File,
+                        name,
+                        format!("array `{name}` is missing"),
+                    );
+                }
+                return None;
+            }
+            Err(msg) => {
+                log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
+                return None;
+            }
         }
-        Err(msg) => {
-            log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
-            None
+        match src.array(name) {
+            Ok(arr) => arr,
+            Err(msg) => {
+                log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
+                None
+            }
         }
     };
     let states = get("states", true, log);
@@ -421,7 +522,9 @@ pub fn read_numpy(
                 frame,
                 intervention,
             };
-            accept(b, log, at, meta, checker);
+            if !accept(b, log, at, meta, checker) {
+                return;
+            }
         }
     }
 }

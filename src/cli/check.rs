@@ -33,6 +33,7 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
     let opts = LoadOptions {
         problem_cap: a.max_problems.max(1),
         strict: a.strict,
+        ..LoadOptions::default()
     };
     let progress = Progress::new();
     let report = {

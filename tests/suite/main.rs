@@ -12,13 +12,16 @@ mod common;
 mod bad_inputs;
 mod calibration;
 mod cli_corrections;
+#[cfg(feature = "gui")]
 mod cli_gui;
 mod cli_score_plan;
 mod conformal;
 mod demo_campaign;
+#[cfg(feature = "gui")]
 mod desk;
 mod export;
 mod export_numpy;
+#[cfg(feature = "gui")]
 mod export_window;
 mod krippendorff_fixture;
 mod layering;
@@ -32,5 +35,7 @@ mod ridge_fixture;
 mod safety_caution;
 mod sim_closed_loop;
 mod study;
+#[cfg(feature = "gui")]
 mod ui_sitting;
+#[cfg(feature = "gui")]
 mod workbench;
