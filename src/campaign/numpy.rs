@@ -339,15 +339,16 @@ pub fn read_numpy(
 ) {
     let (d, a) = (checker.spec().state_dim(), checker.spec().action_dim());
     let cap = b.record_cap() as u64;
+    let mut over_cap = false;
     let mut get = |name: &str, required: bool, log: &mut ProblemLog| {
+        if over_cap {
+            return None;
+        }
         match src.rows(name) {
             Ok(Some(rows)) if rows > cap => {
-                log.error(
-                    ProblemKind::TooMany,
-                    Location::File,
-                    name,
-                    too_many(rows, cap),
-                );
+                let msg = too_many(rows, cap);
+                log.error(ProblemKind::TooMany, Location::File, name, msg);
+                over_cap = true;
                 return None;
             }
             Ok(Some(_)) => {}

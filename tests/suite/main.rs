@@ -23,6 +23,7 @@ mod export;
 mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
+mod hostile;
 mod krippendorff_fixture;
 mod layering;
 mod ledger_crash;
