@@ -11,6 +11,7 @@ pub mod campaign;
 pub mod cli;
 pub mod consensus;
 pub mod export;
+pub mod fuzzing;
 pub mod ledger;
 pub mod novelty;
 pub mod plotting;

@@ -36,6 +36,17 @@ pub fn accept(
         log.error(ProblemKind::TooMany, at, "", msg);
         return false;
     }
+    if let Some(c) = meta.episode.chars().find(|c| c.is_control()) {
+        // NumPy's fixed-width strings drop trailing NULs and CSV readers split on line
+        // breaks: such a name would not survive an export.
+        let msg = format!(
+            "episode name `{}` holds the control character U+{:04X}",
+            meta.episode.escape_debug(),
+            u32::from(c)
+        );
+        log.error(ProblemKind::BadEpisodeName, at, "episode", msg);
+        return true;
+    }
     if let Some(fault) = b.order_fault(&meta.episode, meta.t) {
         let (kind, msg) = match fault {
             OrderFault::Duplicate { previous_origin } => {

@@ -65,6 +65,8 @@ pub enum ProblemKind {
     TooMany,
     /// A file or folder that is a link leading outside the campaign folder.
     OutsideCampaign,
+    /// An episode name holding a control character (NUL, line break, tab...).
+    BadEpisodeName,
     /// Text in an encoding other than UTF-8 (e.g. a UTF-16 byte-order mark).
     NotUtf8,
 }

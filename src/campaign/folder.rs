@@ -173,6 +173,20 @@ pub fn read_campaign_file(root: &Path) -> Result<CampaignFile, Problem> {
     };
     let text =
         read_spec_bytes(root).map_err(|(kind, msg)| problem(Location::File, "", kind, msg))?;
+    parse_campaign_file(&text)
+}
+
+/// Parses and checks the bytes of `campaign.json`; the problem names line and field.
+pub fn parse_campaign_file(text: &[u8]) -> Result<CampaignFile, Problem> {
+    let rel = PathBuf::from(CAMPAIGN_FILE);
+    let problem = |loc, field: &str, kind, message: String| Problem {
+        severity: Severity::Error,
+        kind,
+        file: rel.clone(),
+        location: loc,
+        field: field.to_string(),
+        message,
+    };
     let text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&text);
     let file: CampaignFile = serde_json::from_slice(text).map_err(|e| {
         let msg = e.to_string();

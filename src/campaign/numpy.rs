@@ -8,7 +8,7 @@
 //! that hold it, so a header cannot make the loader allocate more than the file carries.
 
 use std::fs::File;
-use std::io::{BufReader, Read};
+use std::io::{BufReader, Read, Seek};
 use std::path::Path;
 
 use npyz::{NpyFile, Order, TypeChar};
@@ -225,13 +225,22 @@ pub trait ArraySource {
     fn rows(&mut self, name: &str) -> Result<Option<u64>, String>;
 }
 
-/// Arrays of an `.npz` archive.
-pub struct NpzSource(npyz::npz::NpzArchive<BufReader<File>>);
+/// Arrays of an `.npz` archive (a file by default; any seekable reader for tests and fuzzing).
+pub struct NpzSource<R: Read + Seek = BufReader<File>>(npyz::npz::NpzArchive<R>);
 
 impl NpzSource {
     /// Opens an archive.
     pub fn open(path: &Path) -> Result<Self, String> {
         npyz::npz::NpzArchive::open(path)
+            .map(NpzSource)
+            .map_err(|e| format!("not a readable .npz archive: {e}"))
+    }
+}
+
+impl<R: Read + Seek> NpzSource<R> {
+    /// Reads an archive from any seekable reader.
+    pub fn new(r: R) -> Result<Self, String> {
+        npyz::npz::NpzArchive::new(r)
             .map(NpzSource)
             .map_err(|e| format!("not a readable .npz archive: {e}"))
     }
@@ -242,7 +251,7 @@ impl NpzSource {
     }
 }
 
-impl ArraySource for NpzSource {
+impl<R: Read + Seek> ArraySource for NpzSource<R> {
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
         let member = npyz::npz::file_name_from_array_name(name);
         match self.0.zip_archive().by_name(&member) {

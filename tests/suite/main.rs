@@ -30,6 +30,7 @@ mod ledger_crash;
 mod loaders;
 mod novelty_knn;
 mod plotting;
+mod properties;
 mod review_plan;
 mod review_sitting;
 mod ridge_fixture;
