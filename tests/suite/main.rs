@@ -28,6 +28,7 @@ mod krippendorff_fixture;
 mod layering;
 mod ledger_crash;
 mod loaders;
+mod long_sitting;
 mod novelty_knn;
 mod plotting;
 mod properties;
@@ -35,6 +36,7 @@ mod review_plan;
 mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
+mod shared_folder;
 mod sim_closed_loop;
 mod study;
 #[cfg(feature = "gui")]
