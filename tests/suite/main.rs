@@ -23,6 +23,7 @@ mod export;
 mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
+mod fuzz_corpus;
 mod hostile;
 mod krippendorff_fixture;
 mod layering;
