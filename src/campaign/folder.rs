@@ -187,7 +187,7 @@ pub fn parse_campaign_file(text: &[u8]) -> Result<CampaignFile, Problem> {
         field: field.to_string(),
         message,
     };
-    let text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&text);
+    let text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
     let file: CampaignFile = serde_json::from_slice(text).map_err(|e| {
         let msg = e.to_string();
         let field = ["missing field `", "unknown field `"]

@@ -107,8 +107,8 @@ fn five_thousand_corrections_keep_memory_flat_and_replay_exactly() {
     for t in 0..500 {
         let c = correction(t);
         let want = (0..CORRECTIONS)
-            .filter(|&u| u % 500 == t % 500 && u % 5 != 4)
-            .last()
+            .rev()
+            .find(|&u| u % 500 == t % 500 && u % 5 != 4)
             .map(|u| correction(u).verdict);
         let got = ledger
             .standing(1, &c.episode, c.t)

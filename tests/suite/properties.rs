@@ -259,20 +259,22 @@ fn consensus_does_not_depend_on_the_order_of_annotators() {
 
 // ---------------------------------------------------------------- export
 
-fn merged_row() -> impl Strategy<
-    Value = (
-        RowSource,
-        Option<u32>,
-        String,
-        i64,
-        Vec<f32>,
-        f32,
-        u32,
-        u32,
-        f32,
-        Option<f32>,
-    ),
-> {
+/// One merged-set row: source, round, episode, t, state, steer, speed choice, annotators,
+/// weight, agreement.
+type Row = (
+    RowSource,
+    Option<u32>,
+    String,
+    i64,
+    Vec<f32>,
+    f32,
+    u32,
+    u32,
+    f32,
+    Option<f32>,
+);
+
+fn merged_row() -> impl Strategy<Value = Row> {
     let finite = prop::num::f32::NORMAL | prop::num::f32::SUBNORMAL | prop::num::f32::ZERO;
     (
         prop_oneof![Just(RowSource::Demonstration), Just(RowSource::Correction)],
@@ -281,11 +283,11 @@ fn merged_row() -> impl Strategy<
         // survive .npz: found by this test), so the merged set never holds one.
         "[a-z0-9 ,\"'\\-_.:/é漢]{0,12}",
         any::<i64>(),
-        prop::collection::vec(finite.clone(), 3),
+        prop::collection::vec(finite, 3),
         -0.5f32..=0.5,
         0u32..3,
         any::<u32>(),
-        finite.clone(),
+        finite,
         prop::option::of(0f32..=1.0),
     )
         .prop_map(|(src, round, ep, t, state, steer, speed, n, weight, agr)| {
@@ -294,20 +296,7 @@ fn merged_row() -> impl Strategy<
         })
 }
 
-fn merged_set(
-    rows: Vec<(
-        RowSource,
-        Option<u32>,
-        String,
-        i64,
-        Vec<f32>,
-        f32,
-        u32,
-        u32,
-        f32,
-        Option<f32>,
-    )>,
-) -> MergedSet {
+fn merged_set(rows: Vec<Row>) -> MergedSet {
     let spec = campaign_kit::spec();
     let mut m = MergedSet {
         state_names: spec.features.iter().map(|f| f.name.clone()).collect(),
