@@ -187,6 +187,9 @@ pub fn parse_campaign_file(text: &[u8]) -> Result<CampaignFile, Problem> {
         field: field.to_string(),
         message,
     };
+    if let Some(msg) = super::jsonl::utf16_mark(text) {
+        return Err(problem(Location::Line(1), "", ProblemKind::NotUtf8, msg));
+    }
     let text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
     let file: CampaignFile = serde_json::from_slice(text).map_err(|e| {
         let msg = e.to_string();

@@ -338,3 +338,15 @@ fn an_image_bomb_in_a_campaign_frame_is_an_error_naming_the_frame() {
     let e = decode_frame(dir.path(), rel).unwrap_err();
     assert!(e.starts_with("frame `rounds/1/frames/0.png`: "), "{e}");
 }
+
+#[test]
+fn a_utf16_campaign_file_is_named_as_such() {
+    let dir = campaign();
+    let text = std::fs::read_to_string(dir.path().join("campaign.json")).unwrap();
+    let mut utf16 = vec![0xFF, 0xFE];
+    utf16.extend(text.encode_utf16().flat_map(u16::to_le_bytes));
+    std::fs::write(dir.path().join("campaign.json"), utf16).unwrap();
+    let p = only_error(&check(dir.path(), &LoadOptions::default())).clone();
+    assert_eq!((p.kind, p.location), (ProblemKind::NotUtf8, Location::Line(1)));
+    assert!(p.message.contains("save it as UTF-8"), "{p}");
+}
