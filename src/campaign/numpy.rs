@@ -83,10 +83,13 @@ fn checked_start<R: Read>(mut r: R) -> Result<impl Read, String> {
     Ok(std::io::Cursor::new(head[..got].to_vec()).chain(r))
 }
 
-/// Rows (first dimension) an array's header declares, reading only the header.
-pub fn declared_rows<R: Read>(r: R) -> Result<u64, String> {
+/// Longest accepted fixed-width string item (episode names, frame paths), in bytes.
+pub const MAX_TEXT_BYTES: u64 = 4096;
+
+/// The shape an array's header declares, reading only the header.
+pub fn declared_shape<R: Read>(r: R) -> Result<Vec<u64>, String> {
     let npy = NpyFile::new(checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
-    Ok(npy.shape().first().copied().unwrap_or(1))
+    Ok(npy.shape().to_vec())
 }
 
 /// Reads an array, refusing a declared size larger than `available` bytes.
@@ -101,6 +104,12 @@ pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
         return Err("structured or nested dtypes are not supported".into());
     };
     let item = ts.num_bytes().unwrap_or(0) as u64;
+    let text = matches!(ts.type_char(), TypeChar::UnicodeStr | TypeChar::ByteStr);
+    if text && item > MAX_TEXT_BYTES {
+        return Err(format!(
+            "strings of {item} bytes each; names and paths may take at most {MAX_TEXT_BYTES}"
+        ));
+    }
     if count.saturating_mul(item) > available {
         return Err(format!(
             "header declares {count} values of {item} bytes but only {available} bytes follow"
@@ -220,9 +229,9 @@ pub trait ArraySource {
     /// Reads the named array, `Ok(None)` when absent.
     fn array(&mut self, name: &str) -> Result<Option<Array>, String>;
 
-    /// The rows the named array's header declares, reading nothing else; `Ok(None)` when
+    /// The shape the named array's header declares, reading nothing else; `Ok(None)` when
     /// absent. Lets a reader refuse an oversized array before allocating for it.
-    fn rows(&mut self, name: &str) -> Result<Option<u64>, String>;
+    fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String>;
 }
 
 /// Arrays of an `.npz` archive (a file by default; any seekable reader for tests and fuzzing).
@@ -266,10 +275,10 @@ impl<R: Read + Seek> ArraySource for NpzSource<R> {
         }
     }
 
-    fn rows(&mut self, name: &str) -> Result<Option<u64>, String> {
+    fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String> {
         let member = npyz::npz::file_name_from_array_name(name);
         match self.0.zip_archive().by_name(&member) {
-            Ok(f) => declared_rows(f)
+            Ok(f) => declared_shape(f)
                 .map(Some)
                 .map_err(|e| format!("member `{member}`: {e}")),
             Err(npyz::zip::result::ZipError::FileNotFound) => Ok(None),
@@ -313,20 +322,50 @@ impl ArraySource for NpySetSource {
             .map_err(|e| format!("{name}.npy: {e}"))
     }
 
-    fn rows(&mut self, name: &str) -> Result<Option<u64>, String> {
+    fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String> {
         let Some(f) = self.open(name)? else {
             return Ok(None);
         };
-        declared_rows(BufReader::new(f))
+        declared_shape(BufReader::new(f))
             .map(Some)
             .map_err(|e| format!("{name}.npy: {e}"))
     }
 }
 
-fn too_many(rows: u64, cap: u64) -> String {
-    format!(
-        "declares {rows} rows; a file may hold at most {cap} records (split it, or raise the record cap)"
-    )
+/// Most ensemble samples per step a NumPy `samples` array may declare.
+pub const MAX_SAMPLES_PER_STEP: u64 = 1024;
+
+/// Refuses, from its declared shape alone, an array with more rows than the record cap or
+/// wider rows than its name allows, so that nothing is allocated for it.
+fn oversized(
+    name: &str,
+    shape: &[u64],
+    cap: u64,
+    d: usize,
+    a: usize,
+) -> Option<(ProblemKind, String)> {
+    let rows = shape.first().copied().unwrap_or(1);
+    if rows > cap {
+        let msg = format!(
+            "declares {rows} rows; a file may hold at most {cap} records (split it, or raise the record cap)"
+        );
+        return Some((ProblemKind::TooMany, msg));
+    }
+    let width = match name {
+        "states" => d as u64,
+        "actions" => a as u64,
+        "samples" => MAX_SAMPLES_PER_STEP * a as u64,
+        _ => 1,
+    };
+    let per_row = shape
+        .iter()
+        .skip(1)
+        .try_fold(1u64, |p, &x| p.checked_mul(x))
+        .unwrap_or(u64::MAX);
+    (per_row > width.max(1)).then(|| {
+        let msg = format!("shape {shape:?} declares {per_row} values per row; at most {width} fit");
+        (ProblemKind::WrongDimension, msg)
+    })
 }
 
 fn numbers(a: &Array) -> Vec<f64> {
@@ -348,19 +387,19 @@ pub fn read_numpy(
 ) {
     let (d, a) = (checker.spec().state_dim(), checker.spec().action_dim());
     let cap = b.record_cap() as u64;
-    let mut over_cap = false;
+    let mut refused = false;
     let mut get = |name: &str, required: bool, log: &mut ProblemLog| {
-        if over_cap {
+        if refused {
             return None;
         }
-        match src.rows(name) {
-            Ok(Some(rows)) if rows > cap => {
-                let msg = too_many(rows, cap);
-                log.error(ProblemKind::TooMany, Location::File, name, msg);
-                over_cap = true;
-                return None;
+        match src.shape(name) {
+            Ok(Some(shape)) => {
+                if let Some((kind, msg)) = oversized(name, &shape, cap, d, a) {
+                    log.error(kind, Location::File, name, msg);
+                    refused = true;
+                    return None;
+                }
             }
-            Ok(Some(_)) => {}
             Ok(None) => {
                 if required {
                     log.error(

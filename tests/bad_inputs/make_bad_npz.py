@@ -26,12 +26,19 @@ def npy(descr, shape, data, header_len=None):
     return b"\x93NUMPY\x02\x00" + struct.pack("<I", length) + text.encode() + data
 
 
+def put(z, name, data):
+    # A fixed date keeps the archives byte-identical from run to run.
+    info = zipfile.ZipInfo(name, date_time=(2026, 1, 1, 0, 0, 0))
+    info.compress_type = zipfile.ZIP_DEFLATED
+    z.writestr(info, data)
+
+
 def hostile(name, states):
     with zipfile.ZipFile(here / name, "w", zipfile.ZIP_DEFLATED) as z:
         for key, arr in ok.items():
             if key != "states":
-                z.writestr(key + ".npy", _save(arr))
-        z.writestr("states.npy", states)
+                put(z, key + ".npy", _save(arr))
+        put(z, "states.npy", states)
 
 
 def _save(arr):
@@ -47,3 +54,11 @@ hostile("npz_lying_shape.npz", npy("<f8", "(1000000, 3)", np.zeros((2, 3)).tobyt
 hostile("npz_too_many_rows.npz", npy("<f8", "(100000000000, 3)", b""))
 # A header that declares four gigabytes of description.
 hostile("npz_header_bomb.npz", npy("<f8", "(2, 3)", b"", header_len=0xFFFFFFF0))
+# Rows a billion values wide: refused from the header's shape, before any data is read.
+hostile("npz_wide_rows.npz", npy("<f8", "(2, 1000000000)", b""))
+# Episode names of 100,000 characters each (400 kB per name, as NumPy stores them).
+with zipfile.ZipFile(here / "npz_long_strings.npz", "w", zipfile.ZIP_DEFLATED) as z:
+    for key, arr in ok.items():
+        if key != "episode":
+            put(z, key + ".npy", _save(arr))
+    put(z, "episode.npy", npy("<U100000", "(2,)", b""))

@@ -347,6 +347,9 @@ fn a_utf16_campaign_file_is_named_as_such() {
     utf16.extend(text.encode_utf16().flat_map(u16::to_le_bytes));
     std::fs::write(dir.path().join("campaign.json"), utf16).unwrap();
     let p = only_error(&check(dir.path(), &LoadOptions::default())).clone();
-    assert_eq!((p.kind, p.location), (ProblemKind::NotUtf8, Location::Line(1)));
+    assert_eq!(
+        (p.kind, p.location),
+        (ProblemKind::NotUtf8, Location::Line(1))
+    );
     assert!(p.message.contains("save it as UTF-8"), "{p}");
 }
