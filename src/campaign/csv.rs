@@ -282,6 +282,7 @@ impl std::error::Error for LineTooLong {}
 
 /// Passes bytes through, failing once one line runs past [`MAX_LINE_BYTES`]: the CSV reader
 /// would otherwise grow its record buffer without bound on a file with no line breaks.
+/// Lines wholly inside one read are not measured: the CSV reader reads 8 KiB at a time.
 struct LineCap<R> {
     inner: R,
     start: Vec<u8>,

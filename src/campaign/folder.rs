@@ -146,8 +146,10 @@ pub fn round_numbers(root: &Path) -> std::io::Result<Vec<u32>> {
 
 fn read_spec_bytes(root: &Path) -> Result<Vec<u8>, (ProblemKind, String)> {
     use std::io::Read;
-    let path = confined(root, Path::new(CAMPAIGN_FILE))
-        .map_err(|e| (ProblemKind::OutsideCampaign, e.to_string()))?;
+    let path = confined(root, Path::new(CAMPAIGN_FILE)).map_err(|e| match e {
+        Refused::Outside(_) => (ProblemKind::OutsideCampaign, e.to_string()),
+        _ => (ProblemKind::Unreadable, format!("cannot read: {e}")),
+    })?;
     let unreadable = |e: std::io::Error| (ProblemKind::Unreadable, format!("cannot read: {e}"));
     let mut text = Vec::new();
     File::open(path)
