@@ -54,6 +54,19 @@ pub enum LedgerError {
         /// The ledger file.
         path: PathBuf,
     },
+    /// The ledger file is larger than any ledger written by hand could be.
+    #[error(
+        "{} holds {len} bytes; a ledger may hold at most {max} (is this file a ledger?)",
+        path.display()
+    )]
+    TooLarge {
+        /// The ledger file.
+        path: PathBuf,
+        /// Its length.
+        len: u64,
+        /// The limit, [`super::MAX_LEDGER_BYTES`].
+        max: u64,
+    },
     /// The annotator name cannot be used as a file name.
     #[error("annotator name `{name}` {reason}")]
     BadAnnotator {

@@ -152,6 +152,7 @@ pub fn read_ledger(path: &Path) -> Result<AnnotatorLedger, LedgerError> {
         .unwrap_or_default()
         .to_string();
     let stamp = FileStamp::of(path);
+    super::check_ledger_size(path, stamp.map_or(0, |s| s.len))?;
     let bytes = std::fs::read(path).map_err(LedgerError::io(path))?;
     let mut ledger = parse_ledger(path, &annotator, &bytes);
     ledger.stamp = stamp;

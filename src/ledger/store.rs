@@ -74,6 +74,8 @@ impl Ledger {
         if created {
             sync_dir(&dir)?;
         }
+        let len = file.metadata().map_err(LedgerError::io(&path))?.len();
+        super::check_ledger_size(&path, len)?;
         let mut bytes = Vec::new();
         file.read_to_end(&mut bytes)
             .map_err(LedgerError::io(&path))?;

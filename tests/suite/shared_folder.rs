@@ -237,3 +237,19 @@ fn a_full_disk_mid_append_is_reported_and_loses_nothing_acknowledged() {
     assert_eq!(l.records().len(), total_acked);
     assert!(total_acked > 10);
 }
+
+#[test]
+fn a_ledger_larger_than_any_ledger_is_refused_before_it_is_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = ledger_path(dir.path(), "ana");
+    std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+    let f = std::fs::File::create(&path).unwrap();
+    // A sparse file: its length is declared, no disk or memory is used for it.
+    f.set_len(countersteer::ledger::MAX_LEDGER_BYTES + 1)
+        .unwrap();
+    let e = read_ledger(&path).unwrap_err();
+    assert!(matches!(e, LedgerError::TooLarge { .. }), "{e}");
+    assert!(read_ledgers(dir.path()).is_err());
+    let e = Ledger::open(dir.path(), "ana").unwrap_err();
+    assert!(e.to_string().contains("is this file a ledger?"), "{e}");
+}
