@@ -13,6 +13,10 @@ use std::path::Path;
 
 use npyz::{NpyFile, Order, TypeChar};
 
+mod header;
+
+pub use header::{MAX_HEADER_BYTES, MAX_HEADER_NESTING, declared_shape};
+
 use super::accept::{RowMeta, accept};
 use super::error::{Location, ProblemKind, ProblemLog};
 use super::steps::StepTableBuilder;
@@ -50,51 +54,13 @@ pub struct Array {
     pub values: Values,
 }
 
-/// Longest accepted .npy header, in bytes. NumPy's own reader refuses headers over 10,000
-/// bytes by default; a longer declared length is refused before anything is allocated for it.
-pub const MAX_HEADER_BYTES: u64 = 64 << 10;
-
-/// Checks the fixed start of a .npy stream (magic, version, header length) before the header
-/// is read, and hands back a reader that still yields those bytes.
-fn checked_start<R: Read>(mut r: R) -> Result<impl Read, String> {
-    let mut head = [0u8; 12];
-    let mut got = 0;
-    while got < head.len() {
-        match r.read(&mut head[got..]) {
-            Ok(0) => break,
-            Ok(n) => got += n,
-            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-            Err(e) => return Err(format!("not a NumPy array: {e}")),
-        }
-    }
-    if got < 10 || &head[..6] != b"\x93NUMPY" {
-        return Err("not a NumPy array: no `\\x93NUMPY` magic at the start".into());
-    }
-    let header_len = match head[6] {
-        1 => u64::from(u16::from_le_bytes([head[8], head[9]])),
-        _ if got == 12 => u64::from(u32::from_le_bytes([head[8], head[9], head[10], head[11]])),
-        _ => return Err("not a NumPy array: truncated header".into()),
-    };
-    if header_len > MAX_HEADER_BYTES {
-        return Err(format!(
-            "header declares {header_len} bytes of description; at most {MAX_HEADER_BYTES} are accepted"
-        ));
-    }
-    Ok(std::io::Cursor::new(head[..got].to_vec()).chain(r))
-}
-
 /// Longest accepted fixed-width string item (episode names, frame paths), in bytes.
 pub const MAX_TEXT_BYTES: u64 = 4096;
 
-/// The shape an array's header declares, reading only the header.
-pub fn declared_shape<R: Read>(r: R) -> Result<Vec<u64>, String> {
-    let npy = NpyFile::new(checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
-    Ok(npy.shape().to_vec())
-}
-
 /// Reads an array, refusing a declared size larger than `available` bytes.
 pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
-    let npy = NpyFile::new(checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
+    let npy =
+        NpyFile::new(header::checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
     let shape = npy.shape().to_vec();
     let count = shape
         .iter()
