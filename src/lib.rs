@@ -2,13 +2,16 @@
 //!
 //! The library holds every computation: campaigns and their loaders ([`campaign`]), the demo
 //! scenario ([`sim`]), and the progress handle long work reports through. The desktop program
-//! ([`app`]) and the command line only call it; nothing outside `app` knows about egui.
+//! (`app`, built with the default `gui` feature) and the command line only call it; nothing
+//! outside `app` knows about egui.
 
+#[cfg(feature = "gui")]
 pub mod app;
 pub mod campaign;
 pub mod cli;
 pub mod consensus;
 pub mod export;
+pub mod fuzzing;
 pub mod ledger;
 pub mod novelty;
 pub mod plotting;

@@ -2,7 +2,7 @@
 //! kept in a small cache, never blocking a frame. While a new image loads the last one stays.
 
 use std::collections::VecDeque;
-use std::path::{Component, Path, PathBuf};
+use std::path::{Path, PathBuf};
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
 
 use egui::{ColorImage, TextureHandle, TextureOptions};
@@ -11,10 +11,6 @@ use egui::{ColorImage, TextureHandle, TextureOptions};
 pub const CACHE_CAP: usize = 24;
 /// Largest side an image is shown at; bigger images are shrunk on the loading thread.
 pub const MAX_SIDE: u32 = 1024;
-/// Largest accepted image side before decoding.
-pub const MAX_DECODE_SIDE: u32 = 8192;
-/// Largest allocation the decoder may make.
-pub const MAX_DECODE_BYTES: u64 = 256 << 20;
 
 type Decoded = Result<ColorImage, String>;
 
@@ -56,7 +52,7 @@ impl FrameCache {
             };
         }
         if self.pending.as_ref().map(|(p, _)| p) != Some(&key) {
-            self.pending = Some((key.clone(), spawn_decode(rel, key)));
+            self.pending = Some((key.clone(), spawn_decode(root, rel)));
         }
         FrameShow::Loading(self.last_shown.as_ref())
     }
@@ -80,13 +76,14 @@ impl FrameCache {
     }
 }
 
-fn spawn_decode(rel: &str, path: PathBuf) -> Receiver<Decoded> {
+fn spawn_decode(root: &Path, rel: &str) -> Receiver<Decoded> {
     let (tx, rx) = channel();
     let rel = rel.to_string();
+    let root = root.to_path_buf();
     let spawned = std::thread::Builder::new()
         .name("countersteer-frame".into())
         .spawn(move || {
-            let _ = tx.send(decode(&rel, &path));
+            let _ = tx.send(decode(&root, &rel));
         });
     if let Err(e) = spawned {
         let (tx, rx2) = channel();
@@ -96,28 +93,10 @@ fn spawn_decode(rel: &str, path: PathBuf) -> Receiver<Decoded> {
     rx
 }
 
-/// Decodes an image file with size limits, shrinking it to at most [`MAX_SIDE`] per side.
-/// `rel` must stay inside the campaign folder.
-pub fn decode(rel: &str, path: &Path) -> Decoded {
-    let inside = Path::new(rel)
-        .components()
-        .all(|c| matches!(c, Component::Normal(_) | Component::CurDir));
-    if !inside {
-        return Err(format!(
-            "frame `{rel}`: the path leaves the campaign folder"
-        ));
-    }
-    let fail = |e: &dyn std::fmt::Display| format!("frame `{rel}`: {e}");
-    let mut reader = image::ImageReader::open(path)
-        .map_err(|e| fail(&e))?
-        .with_guessed_format()
-        .map_err(|e| fail(&e))?;
-    let mut limits = image::Limits::default();
-    limits.max_image_width = Some(MAX_DECODE_SIDE);
-    limits.max_image_height = Some(MAX_DECODE_SIDE);
-    limits.max_alloc = Some(MAX_DECODE_BYTES);
-    reader.limits(limits);
-    let img = reader.decode().map_err(|e| fail(&e))?;
+/// Decodes a frame with the library's size limits and confinement to the campaign folder
+/// ([`crate::campaign::frame::decode_frame`]), shrinking it to at most [`MAX_SIDE`] per side.
+pub fn decode(root: &Path, rel: &str) -> Decoded {
+    let img = crate::campaign::frame::decode_frame(root, rel)?;
     let img = if img.width() > MAX_SIDE || img.height() > MAX_SIDE {
         img.thumbnail(MAX_SIDE, MAX_SIDE)
     } else {
@@ -134,7 +113,7 @@ mod tests {
 
     #[test]
     fn refuses_paths_leaving_the_campaign() {
-        let e = decode("../secret.png", Path::new("/tmp/secret.png")).unwrap_err();
+        let e = decode(Path::new("/tmp"), "../secret.png").unwrap_err();
         assert!(e.contains("leaves the campaign folder"), "{e}");
     }
 
@@ -145,7 +124,7 @@ mod tests {
         image::RgbImage::from_pixel(2048, 512, image::Rgb([10, 20, 30]))
             .save(&path)
             .unwrap();
-        let img = decode("big.png", &path).unwrap();
+        let img = decode(dir.path(), "big.png").unwrap();
         assert_eq!(img.size, [1024, 256]);
         assert_eq!(img.pixels[0], egui::Color32::from_rgb(10, 20, 30));
     }
@@ -155,6 +134,6 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let path = dir.path().join("bad.png");
         std::fs::write(&path, b"not an image").unwrap();
-        assert!(decode("bad.png", &path).is_err());
+        assert!(decode(dir.path(), "bad.png").is_err());
     }
 }

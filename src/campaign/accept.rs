@@ -18,13 +18,35 @@ pub struct RowMeta {
 }
 
 /// Adds a checked row to the builder unless its (episode, t) is out of order or repeated.
+/// Returns false when the file already holds as many records as the cap allows: the row is
+/// refused with an error and the caller stops reading the file.
 pub fn accept(
     b: &mut StepTableBuilder,
     log: &mut ProblemLog,
     at: Location,
     meta: RowMeta,
     c: &RowChecker<'_>,
-) {
+) -> bool {
+    if b.source_full() {
+        let cap = b.record_cap();
+        let msg = format!(
+            "more than {cap} records in one file (split it, or raise the record cap); \
+             reading stopped here"
+        );
+        log.error(ProblemKind::TooMany, at, "", msg);
+        return false;
+    }
+    if let Some(c) = meta.episode.chars().find(|c| c.is_control()) {
+        // NumPy's fixed-width strings drop trailing NULs and CSV readers split on line
+        // breaks: such a name would not survive an export.
+        let msg = format!(
+            "episode name `{}` holds the control character U+{:04X}",
+            meta.episode.escape_debug(),
+            u32::from(c)
+        );
+        log.error(ProblemKind::BadEpisodeName, at, "episode", msg);
+        return true;
+    }
     if let Some(fault) = b.order_fault(&meta.episode, meta.t) {
         let (kind, msg) = match fault {
             OrderFault::Duplicate { previous_origin } => {
@@ -60,7 +82,7 @@ pub fn accept(
             "episode"
         };
         log.error(kind, at, field, msg);
-        return;
+        return true;
     }
     let origin = match at {
         Location::Line(n) | Location::Record(n) => n,
@@ -76,4 +98,5 @@ pub fn accept(
         samples: &c.samples,
         origin,
     });
+    true
 }

@@ -4,6 +4,8 @@
 use std::io::Read;
 use std::path::Path;
 
+use super::jsonl::{MAX_LINE_BYTES, utf16_mark};
+
 use super::accept::{RowMeta, accept};
 use super::error::{Location, ProblemKind, ProblemLog};
 use super::spec::Spec;
@@ -80,6 +82,20 @@ pub fn read_csv<R: Read>(
     log: &mut ProblemLog,
     progress: &Progress,
 ) {
+    let mut input = LineCap::new(input);
+    match input.peek_start() {
+        Ok(head) => {
+            if let Some(msg) = utf16_mark(head) {
+                log.error(ProblemKind::NotUtf8, Location::Line(1), "", msg);
+                return;
+            }
+        }
+        Err(e) => {
+            let msg = format!("read failed: {e}");
+            log.error(ProblemKind::Unreadable, Location::File, "", msg);
+            return;
+        }
+    }
     let mut rdr = csv::ReaderBuilder::new()
         .has_headers(true)
         .flexible(true)
@@ -96,12 +112,8 @@ pub fn read_csv<R: Read>(
             return;
         }
         Err(e) => {
-            log.error(
-                ProblemKind::MalformedCsv,
-                Location::Line(1),
-                "",
-                format!("header: {e}"),
-            );
+            let (kind, at, msg) = csv_fault(&e, 1);
+            log.error(kind, at, "", format!("header: {msg}"));
             return;
         }
     };
@@ -118,8 +130,8 @@ pub fn read_csv<R: Read>(
             Ok(false) => break,
             Ok(true) => {}
             Err(e) => {
-                let at = Location::Line(e.position().map_or(line, |p| p.line()));
-                log.error(ProblemKind::MalformedCsv, at, "", e.to_string());
+                let (kind, at, msg) = csv_fault(&e, line);
+                log.error(kind, at, "", msg);
                 if matches!(e.kind(), csv::ErrorKind::Io(_)) {
                     break;
                 }
@@ -208,7 +220,9 @@ pub fn read_csv<R: Read>(
                 frame,
                 intervention,
             };
-            accept(b, log, at, meta, checker);
+            if !accept(b, log, at, meta, checker) {
+                return;
+            }
         }
     }
 }
@@ -219,5 +233,109 @@ fn parse_flag(s: &str) -> Result<Option<bool>, String> {
         "1" | "true" | "True" | "TRUE" => Ok(Some(true)),
         "0" | "false" | "False" | "FALSE" => Ok(Some(false)),
         other => Err(other.to_string()),
+    }
+}
+
+/// Kind, line and wording of a CSV reader error.
+fn csv_fault(e: &csv::Error, line: u64) -> (ProblemKind, Location, String) {
+    let at = Location::Line(e.position().map_or(line, |p| p.line()));
+    match e.kind() {
+        csv::ErrorKind::Io(io) => {
+            match io.get_ref().and_then(|x| x.downcast_ref::<LineTooLong>()) {
+                Some(long) => (
+                    ProblemKind::TooLong,
+                    Location::Line(long.line),
+                    long.to_string(),
+                ),
+                None => (ProblemKind::Unreadable, at, format!("read failed: {io}")),
+            }
+        }
+        csv::ErrorKind::Utf8 { err, .. } => (
+            ProblemKind::NotUtf8,
+            at,
+            format!(
+                "not UTF-8 text in field {} (byte {} of the field)",
+                err.field() + 1,
+                err.valid_up_to() + 1
+            ),
+        ),
+        _ => (ProblemKind::MalformedCsv, at, e.to_string()),
+    }
+}
+
+/// The error a [`LineCap`] reader fails with.
+#[derive(Debug)]
+struct LineTooLong {
+    line: u64,
+}
+
+impl std::fmt::Display for LineTooLong {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "line longer than {MAX_LINE_BYTES} bytes; reading stopped here"
+        )
+    }
+}
+
+impl std::error::Error for LineTooLong {}
+
+/// Passes bytes through, failing once one line runs past [`MAX_LINE_BYTES`]: the CSV reader
+/// would otherwise grow its record buffer without bound on a file with no line breaks.
+/// Lines wholly inside one read are not measured: the CSV reader reads 8 KiB at a time.
+struct LineCap<R> {
+    inner: R,
+    start: Vec<u8>,
+    run: usize,
+    line: u64,
+}
+
+impl<R: Read> LineCap<R> {
+    fn new(inner: R) -> Self {
+        LineCap {
+            inner,
+            start: Vec::new(),
+            run: 0,
+            line: 1,
+        }
+    }
+
+    /// Reads (and keeps for later reads) the first bytes of the stream.
+    fn peek_start(&mut self) -> std::io::Result<&[u8]> {
+        let mut head = [0u8; 4];
+        let n = self.inner.read(&mut head)?;
+        self.start = head[..n].to_vec();
+        Ok(&self.start)
+    }
+
+    fn count(&mut self, chunk: &[u8]) -> std::io::Result<()> {
+        let first = chunk.iter().position(|&b| b == b'\n');
+        let before = first.unwrap_or(chunk.len());
+        if self.run + before > MAX_LINE_BYTES {
+            return Err(std::io::Error::other(LineTooLong { line: self.line }));
+        }
+        match chunk.iter().rposition(|&b| b == b'\n') {
+            Some(last) => {
+                self.line += chunk.iter().filter(|&&b| b == b'\n').count() as u64;
+                self.run = chunk.len() - last - 1;
+            }
+            None => self.run += chunk.len(),
+        }
+        Ok(())
+    }
+}
+
+impl<R: Read> Read for LineCap<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = if self.start.is_empty() {
+            self.inner.read(buf)?
+        } else {
+            let n = self.start.len().min(buf.len());
+            buf[..n].copy_from_slice(&self.start[..n]);
+            self.start.drain(..n);
+            n
+        };
+        self.count(&buf[..n])?;
+        Ok(n)
     }
 }

@@ -61,6 +61,14 @@ pub enum ProblemKind {
     BadSpec,
     /// A line longer than the loader accepts.
     TooLong,
+    /// More records in one file than the record cap allows.
+    TooMany,
+    /// A file or folder that is a link leading outside the campaign folder.
+    OutsideCampaign,
+    /// An episode name holding a control character (NUL, line break, tab...).
+    BadEpisodeName,
+    /// Text in an encoding other than UTF-8 (e.g. a UTF-16 byte-order mark).
+    NotUtf8,
 }
 
 /// Whether a problem stops the campaign from loading.

@@ -3,11 +3,12 @@
 use std::fs::File;
 use std::path::{Path, PathBuf};
 
+use super::confine::{Confinement, Refused, confined};
 use super::error::{CampaignError, Location, Problem, ProblemKind, ProblemLog, Severity};
 use super::jsonl::read_jsonl;
 use super::numpy::{NpySetSource, NpzSource, read_numpy};
 use super::spec::CampaignFile;
-use super::steps::{StepTable, StepTableBuilder};
+use super::steps::{DEFAULT_RECORD_CAP, StepTable, StepTableBuilder};
 use super::validate::RowChecker;
 use super::{Campaign, Round};
 use crate::progress::Progress;
@@ -52,6 +53,9 @@ pub struct LoadOptions {
     pub problem_cap: usize,
     /// Treat warnings (clipped actions, missing frames) as errors.
     pub strict: bool,
+    /// Most records one data file may hold; a file with more is refused with a located
+    /// error (default [`DEFAULT_RECORD_CAP`]).
+    pub record_cap: usize,
 }
 
 impl Default for LoadOptions {
@@ -59,9 +63,13 @@ impl Default for LoadOptions {
         LoadOptions {
             problem_cap: 50,
             strict: false,
+            record_cap: DEFAULT_RECORD_CAP,
         }
     }
 }
+
+/// Largest accepted `campaign.json`, in bytes: a spec is a few kilobytes.
+pub const MAX_CAMPAIGN_FILE_BYTES: u64 = 4 << 20;
 
 /// Result of [`check_campaign`]: the campaign when it loads, and every problem found.
 #[derive(Debug)]
@@ -84,12 +92,14 @@ impl CheckReport {
     }
 }
 
-/// Lists the data files of one folder (sorted by name; other files are ignored).
+/// Lists the data files of one folder (sorted by name; other files are ignored). Links are
+/// listed too (and checked when read: a link leading outside the campaign is refused).
 pub fn data_files(root: &Path, rel_dir: &Path) -> std::io::Result<Vec<DataFile>> {
     let mut out = Vec::new();
     for entry in std::fs::read_dir(root.join(rel_dir))? {
         let entry = entry?;
-        if !entry.file_type()?.is_file() {
+        let kind = entry.file_type()?;
+        if !(kind.is_file() || kind.is_symlink() && !entry.path().is_dir()) {
             continue;
         }
         let name = entry.file_name().to_string_lossy().into_owned();
@@ -124,7 +134,7 @@ pub fn round_numbers(root: &Path) -> std::io::Result<Vec<u32>> {
     let mut out = Vec::new();
     for entry in std::fs::read_dir(dir)? {
         let entry = entry?;
-        if entry.file_type()?.is_dir()
+        if entry.path().is_dir()
             && let Ok(n) = entry.file_name().to_string_lossy().parse::<u32>()
         {
             out.push(n);
@@ -132,6 +142,24 @@ pub fn round_numbers(root: &Path) -> std::io::Result<Vec<u32>> {
     }
     out.sort_unstable();
     Ok(out)
+}
+
+fn read_spec_bytes(root: &Path) -> Result<Vec<u8>, (ProblemKind, String)> {
+    use std::io::Read;
+    let path = confined(root, Path::new(CAMPAIGN_FILE)).map_err(|e| match e {
+        Refused::Outside(_) => (ProblemKind::OutsideCampaign, e.to_string()),
+        _ => (ProblemKind::Unreadable, format!("cannot read: {e}")),
+    })?;
+    let unreadable = |e: std::io::Error| (ProblemKind::Unreadable, format!("cannot read: {e}"));
+    let mut text = Vec::new();
+    File::open(path)
+        .and_then(|f| f.take(MAX_CAMPAIGN_FILE_BYTES + 1).read_to_end(&mut text))
+        .map_err(unreadable)?;
+    if text.len() as u64 > MAX_CAMPAIGN_FILE_BYTES {
+        let msg = format!("longer than {MAX_CAMPAIGN_FILE_BYTES} bytes; a spec is a few kilobytes");
+        return Err((ProblemKind::TooLong, msg));
+    }
+    Ok(text)
 }
 
 /// Reads and checks `campaign.json`.
@@ -145,15 +173,26 @@ pub fn read_campaign_file(root: &Path) -> Result<CampaignFile, Problem> {
         field: field.to_string(),
         message,
     };
-    let text = std::fs::read(root.join(CAMPAIGN_FILE)).map_err(|e| {
-        problem(
-            Location::File,
-            "",
-            ProblemKind::Unreadable,
-            format!("cannot read: {e}"),
-        )
-    })?;
-    let text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&text);
+    let text =
+        read_spec_bytes(root).map_err(|(kind, msg)| problem(Location::File, "", kind, msg))?;
+    parse_campaign_file(&text)
+}
+
+/// Parses and checks the bytes of `campaign.json`; the problem names line and field.
+pub fn parse_campaign_file(text: &[u8]) -> Result<CampaignFile, Problem> {
+    let rel = PathBuf::from(CAMPAIGN_FILE);
+    let problem = |loc, field: &str, kind, message: String| Problem {
+        severity: Severity::Error,
+        kind,
+        file: rel.clone(),
+        location: loc,
+        field: field.to_string(),
+        message,
+    };
+    if let Some(msg) = super::jsonl::utf16_mark(text) {
+        return Err(problem(Location::Line(1), "", ProblemKind::NotUtf8, msg));
+    }
+    let text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
     let file: CampaignFile = serde_json::from_slice(text).map_err(|e| {
         let msg = e.to_string();
         let field = ["missing field `", "unknown field `"]
@@ -201,7 +240,17 @@ pub fn read_data_file(
     b.begin_source(f.rel.clone());
     let before = b.len();
     let data_dir = f.rel.parent().unwrap_or(Path::new("")).to_path_buf();
-    let path = root.join(&f.rel);
+    let path = match confined(root, &f.rel) {
+        Ok(p) => p,
+        Err(e) => {
+            let kind = match e {
+                Refused::Outside(_) => ProblemKind::OutsideCampaign,
+                _ => ProblemKind::Unreadable,
+            };
+            log.error(kind, Location::File, "", e.to_string());
+            return;
+        }
+    };
     match f.format {
         DataFormat::JsonLines | DataFormat::Csv => match File::open(&path) {
             Ok(file) if f.format == DataFormat::JsonLines => {
@@ -227,7 +276,8 @@ pub fn read_data_file(
                 .unwrap_or_default();
             let stem = name.trim_end_matches(".states.npy").to_string();
             let mut src = NpySetSource {
-                dir: root.join(&data_dir),
+                root: root.to_path_buf(),
+                dir: data_dir.clone(),
                 stem,
             };
             read_numpy(&mut src, &data_dir, checker, b, log, progress);
@@ -252,6 +302,14 @@ fn load_table(
     problems: &mut Vec<Problem>,
     more: &mut usize,
 ) -> Option<StepTable> {
+    if let Err(e @ Refused::Outside(_)) = confined(root, rel_dir) {
+        problems.push(folder_problem(
+            rel_dir,
+            ProblemKind::OutsideCampaign,
+            e.to_string(),
+        ));
+        return None;
+    }
     let files = match data_files(root, rel_dir) {
         Ok(f) => f,
         Err(e) => {
@@ -272,6 +330,7 @@ fn load_table(
         return None;
     }
     let mut b = StepTableBuilder::new(file.spec.state_dim(), file.spec.action_dim());
+    b.set_record_cap(opts.record_cap);
     let mut checker = RowChecker::new(&file.spec);
     let mut ok = true;
     for f in &files {
@@ -286,7 +345,7 @@ fn load_table(
         }
     }
     let table = b.finish();
-    check_frames(root, &table, opts, problems, more);
+    ok &= check_frames(root, &table, opts, problems, more);
     ok.then_some(table)
 }
 
@@ -296,12 +355,33 @@ fn check_frames(
     opts: &LoadOptions,
     problems: &mut Vec<Problem>,
     more: &mut usize,
-) {
+) -> bool {
+    let warn_or_error = if opts.strict {
+        Severity::Error
+    } else {
+        Severity::Warning
+    };
     let mut shown = 0;
+    let mut clean = true;
+    let Ok(inside) = Confinement::new(root) else {
+        return true; // the folder itself was just read; it cannot vanish in a way worth a line
+    };
     for (row, rel) in &table.frames {
-        if root.join(rel).is_file() {
-            continue;
-        }
+        let (severity, kind, message) = match inside.resolve(Path::new(rel)) {
+            Ok(p) if p.is_file() => continue,
+            Ok(_) => (
+                warn_or_error,
+                ProblemKind::MissingFrame,
+                "is not a file".into(),
+            ),
+            Err(Refused::Missing) => (
+                warn_or_error,
+                ProblemKind::MissingFrame,
+                "does not exist".into(),
+            ),
+            Err(e) => (Severity::Error, ProblemKind::BadFramePath, e.to_string()),
+        };
+        clean &= severity != Severity::Error;
         if shown >= opts.problem_cap {
             *more += 1;
             continue;
@@ -310,18 +390,15 @@ fn check_frames(
         let row = *row as usize;
         let e = &table.episodes[table.episode_of(row)];
         problems.push(Problem {
-            severity: if opts.strict {
-                Severity::Error
-            } else {
-                Severity::Warning
-            },
-            kind: ProblemKind::MissingFrame,
+            severity,
+            kind,
             file: table.sources[e.source].clone(),
             location: Location::Line(table.origins[row]),
             field: "frame".into(),
-            message: format!("frame `{rel}` does not exist"),
+            message: format!("frame `{rel}` {message}"),
         });
     }
+    clean
 }
 
 fn folder_problem(rel: &Path, kind: ProblemKind, message: String) -> Problem {

@@ -84,7 +84,15 @@ pub fn read_jsonl<R: Read>(
         }
         let mut text = buf.as_slice();
         if line_no == 1 {
+            if let Some(msg) = utf16_mark(text) {
+                log.error(ProblemKind::NotUtf8, at, "", msg);
+                return;
+            }
             text = text.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(text);
+        }
+        if let Err(e) = std::str::from_utf8(text) {
+            log.error(ProblemKind::NotUtf8, at, "", not_utf8(text, &e));
+            continue;
         }
         if text.iter().all(u8::is_ascii_whitespace) {
             continue;
@@ -100,7 +108,9 @@ pub fn read_jsonl<R: Read>(
                 continue;
             }
         };
-        row(step, at, data_dir, checker, b, log);
+        if !row(step, at, data_dir, checker, b, log) {
+            return;
+        }
     }
 }
 
@@ -111,7 +121,7 @@ fn row(
     c: &mut RowChecker<'_>,
     b: &mut StepTableBuilder,
     log: &mut ProblemLog,
-) {
+) -> bool {
     let mut ok = c.state(step.state.iter().copied(), log, at);
     ok &= c.action(step.action.iter(), log, at, "action");
     c.samples.clear();
@@ -121,13 +131,13 @@ fn row(
     let frame = match step.frame.as_deref().map(|f| resolve_frame(data_dir, f)) {
         Some(Err(msg)) => {
             log.error(ProblemKind::BadFramePath, at, "frame", msg);
-            return;
+            return true;
         }
         Some(Ok(p)) => Some(p),
         None => None,
     };
     if !ok {
-        return;
+        return true;
     }
     let episode = match step.episode {
         EpisodeId::Name(s) => s,
@@ -139,7 +149,29 @@ fn row(
         frame,
         intervention: step.intervention,
     };
-    accept(b, log, at, meta, c);
+    accept(b, log, at, meta, c)
+}
+
+/// Says so when text starts with a UTF-16 byte-order mark.
+pub(crate) fn utf16_mark(text: &[u8]) -> Option<String> {
+    let which = match text {
+        [0xFF, 0xFE, ..] => "little-endian",
+        [0xFE, 0xFF, ..] => "big-endian",
+        _ => return None,
+    };
+    Some(format!(
+        "the file is UTF-16 ({which} byte-order mark); save it as UTF-8"
+    ))
+}
+
+/// Words a UTF-8 fault with the 1-based column of the first bad byte.
+pub(crate) fn not_utf8(text: &[u8], e: &std::str::Utf8Error) -> String {
+    let at = e.valid_up_to();
+    format!(
+        "not UTF-8 text: byte 0x{:02x} at column {}",
+        text.get(at).copied().unwrap_or(0),
+        at + 1
+    )
 }
 
 fn skip_rest_of_line<R: BufRead>(reader: &mut R, progress: &Progress) {
@@ -175,11 +207,6 @@ fn json_fault(e: &serde_json::Error, text: &[u8]) -> (String, String) {
     let msg = match msg.rsplit_once(" at line ") {
         Some((head, _)) => format!("{head} (column {})", e.column()),
         None => msg,
-    };
-    let msg = if std::str::from_utf8(text).is_err() {
-        format!("not UTF-8 text ({msg})")
-    } else {
-        msg
     };
     (field, msg)
 }

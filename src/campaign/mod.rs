@@ -6,9 +6,11 @@
 //! Every other fault is an error.
 
 mod accept;
+pub mod confine;
 pub mod csv;
 pub mod error;
 pub mod folder;
+pub mod frame;
 pub mod jsonl;
 pub mod numpy;
 pub mod spec;

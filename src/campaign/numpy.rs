@@ -8,10 +8,14 @@
 //! that hold it, so a header cannot make the loader allocate more than the file carries.
 
 use std::fs::File;
-use std::io::{BufReader, Read};
+use std::io::{BufReader, Read, Seek};
 use std::path::Path;
 
 use npyz::{NpyFile, Order, TypeChar};
+
+mod header;
+
+pub use header::{MAX_HEADER_BYTES, MAX_HEADER_NESTING, declared_shape};
 
 use super::accept::{RowMeta, accept};
 use super::error::{Location, ProblemKind, ProblemLog};
@@ -50,9 +54,13 @@ pub struct Array {
     pub values: Values,
 }
 
+/// Longest accepted fixed-width string item (episode names, frame paths), in bytes.
+pub const MAX_TEXT_BYTES: u64 = 4096;
+
 /// Reads an array, refusing a declared size larger than `available` bytes.
 pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
-    let npy = NpyFile::new(r).map_err(|e| format!("not a NumPy array: {e}"))?;
+    let npy =
+        NpyFile::new(header::checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
     let shape = npy.shape().to_vec();
     let count = shape
         .iter()
@@ -62,6 +70,12 @@ pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
         return Err("structured or nested dtypes are not supported".into());
     };
     let item = ts.num_bytes().unwrap_or(0) as u64;
+    let text = matches!(ts.type_char(), TypeChar::UnicodeStr | TypeChar::ByteStr);
+    if text && item > MAX_TEXT_BYTES {
+        return Err(format!(
+            "strings of {item} bytes each; names and paths may take at most {MAX_TEXT_BYTES}"
+        ));
+    }
     if count.saturating_mul(item) > available {
         return Err(format!(
             "header declares {count} values of {item} bytes but only {available} bytes follow"
@@ -180,15 +194,28 @@ fn to_c_order(v: Values, shape: &[u64]) -> Values {
 pub trait ArraySource {
     /// Reads the named array, `Ok(None)` when absent.
     fn array(&mut self, name: &str) -> Result<Option<Array>, String>;
+
+    /// The shape the named array's header declares, reading nothing else; `Ok(None)` when
+    /// absent. Lets a reader refuse an oversized array before allocating for it.
+    fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String>;
 }
 
-/// Arrays of an `.npz` archive.
-pub struct NpzSource(npyz::npz::NpzArchive<BufReader<File>>);
+/// Arrays of an `.npz` archive (a file by default; any seekable reader for tests and fuzzing).
+pub struct NpzSource<R: Read + Seek = BufReader<File>>(npyz::npz::NpzArchive<R>);
 
 impl NpzSource {
     /// Opens an archive.
     pub fn open(path: &Path) -> Result<Self, String> {
         npyz::npz::NpzArchive::open(path)
+            .map(NpzSource)
+            .map_err(|e| format!("not a readable .npz archive: {e}"))
+    }
+}
+
+impl<R: Read + Seek> NpzSource<R> {
+    /// Reads an archive from any seekable reader.
+    pub fn new(r: R) -> Result<Self, String> {
+        npyz::npz::NpzArchive::new(r)
             .map(NpzSource)
             .map_err(|e| format!("not a readable .npz archive: {e}"))
     }
@@ -199,7 +226,7 @@ impl NpzSource {
     }
 }
 
-impl ArraySource for NpzSource {
+impl<R: Read + Seek> ArraySource for NpzSource<R> {
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
         let member = npyz::npz::file_name_from_array_name(name);
         match self.0.zip_archive().by_name(&member) {
@@ -213,29 +240,98 @@ impl ArraySource for NpzSource {
             Err(e) => Err(format!("member `{member}`: {e}")),
         }
     }
+
+    fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String> {
+        let member = npyz::npz::file_name_from_array_name(name);
+        match self.0.zip_archive().by_name(&member) {
+            Ok(f) => declared_shape(f)
+                .map(Some)
+                .map_err(|e| format!("member `{member}`: {e}")),
+            Err(npyz::zip::result::ZipError::FileNotFound) => Ok(None),
+            Err(e) => Err(format!("member `{member}`: {e}")),
+        }
+    }
 }
 
-/// Arrays of `<stem>.<name>.npy` files in one folder.
+/// Arrays of `<stem>.<name>.npy` files in one folder of a campaign.
 pub struct NpySetSource {
-    /// Folder of the files.
+    /// The campaign folder: no file is read from outside it, even through a link.
+    pub root: std::path::PathBuf,
+    /// Folder of the files, relative to `root`.
     pub dir: std::path::PathBuf,
     /// Shared stem.
     pub stem: String,
 }
 
+impl NpySetSource {
+    fn open(&self, name: &str) -> Result<Option<File>, String> {
+        let file = format!("{}.{name}.npy", self.stem);
+        let path = match super::confine::confined(&self.root, &self.dir.join(&file)) {
+            Ok(p) => p,
+            Err(super::confine::Refused::Missing) => return Ok(None),
+            Err(e) => return Err(format!("{file}: {e}")),
+        };
+        File::open(&path)
+            .map(Some)
+            .map_err(|e| format!("{file}: {e}"))
+    }
+}
+
 impl ArraySource for NpySetSource {
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
-        let path = self.dir.join(format!("{}.{name}.npy", self.stem));
-        let f = match File::open(&path) {
-            Ok(f) => f,
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(None),
-            Err(e) => return Err(format!("{}: {e}", path.display())),
+        let Some(f) = self.open(name)? else {
+            return Ok(None);
         };
         let size = f.metadata().map(|m| m.len()).unwrap_or(0);
         read_array(BufReader::new(f), size)
             .map(Some)
             .map_err(|e| format!("{name}.npy: {e}"))
     }
+
+    fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String> {
+        let Some(f) = self.open(name)? else {
+            return Ok(None);
+        };
+        declared_shape(BufReader::new(f))
+            .map(Some)
+            .map_err(|e| format!("{name}.npy: {e}"))
+    }
+}
+
+/// Most ensemble samples per step a NumPy `samples` array may declare.
+pub const MAX_SAMPLES_PER_STEP: u64 = 1024;
+
+/// Refuses, from its declared shape alone, an array with more rows than the record cap or
+/// wider rows than its name allows, so that nothing is allocated for it.
+fn oversized(
+    name: &str,
+    shape: &[u64],
+    cap: u64,
+    d: usize,
+    a: usize,
+) -> Option<(ProblemKind, String)> {
+    let rows = shape.first().copied().unwrap_or(1);
+    if rows > cap {
+        let msg = format!(
+            "declares {rows} rows; a file may hold at most {cap} records (split it, or raise the record cap)"
+        );
+        return Some((ProblemKind::TooMany, msg));
+    }
+    let width = match name {
+        "states" => d as u64,
+        "actions" => a as u64,
+        "samples" => MAX_SAMPLES_PER_STEP * a as u64,
+        _ => 1,
+    };
+    let per_row = shape
+        .iter()
+        .skip(1)
+        .try_fold(1u64, |p, &x| p.checked_mul(x))
+        .unwrap_or(u64::MAX);
+    (per_row > width.max(1)).then(|| {
+        let msg = format!("shape {shape:?} declares {per_row} values per row; at most {width} fit");
+        (ProblemKind::WrongDimension, msg)
+    })
 }
 
 fn numbers(a: &Array) -> Vec<f64> {
@@ -256,22 +352,42 @@ pub fn read_numpy(
     progress: &Progress,
 ) {
     let (d, a) = (checker.spec().state_dim(), checker.spec().action_dim());
-    let mut get = |name: &str, required: bool, log: &mut ProblemLog| match src.array(name) {
-        Ok(Some(arr)) => Some(arr),
-        Ok(None) => {
-            if required {
-                log.error(
-                    ProblemKind::MissingColumn,
-                    Location::File,
-                    name,
-                    format!("array `{name}` is missing"),
-                );
-            }
-            None
+    let cap = b.record_cap() as u64;
+    let mut refused = false;
+    let mut get = |name: &str, required: bool, log: &mut ProblemLog| {
+        if refused {
+            return None;
         }
-        Err(msg) => {
-            log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
-            None
+        match src.shape(name) {
+            Ok(Some(shape)) => {
+                if let Some((kind, msg)) = oversized(name, &shape, cap, d, a) {
+                    log.error(kind, Location::File, name, msg);
+                    refused = true;
+                    return None;
+                }
+            }
+            Ok(None) => {
+                if required {
+                    log.error(
+                        ProblemKind::MissingColumn,
+                        Location::File,
+                        name,
+                        format!("array `{name}` is missing"),
+                    );
+                }
+                return None;
+            }
+            Err(msg) => {
+                log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
+                return None;
+            }
+        }
+        match src.array(name) {
+            Ok(arr) => arr,
+            Err(msg) => {
+                log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
+                None
+            }
         }
     };
     let states = get("states", true, log);
@@ -421,7 +537,9 @@ pub fn read_numpy(
                 frame,
                 intervention,
             };
-            accept(b, log, at, meta, checker);
+            if !accept(b, log, at, meta, checker) {
+                return;
+            }
         }
     }
 }

@@ -206,7 +206,14 @@ pub struct StepTableBuilder {
     any_intervention: bool,
     sample_counts: Vec<u32>,
     current_source: usize,
+    source_start: usize,
+    record_cap: usize,
 }
+
+/// Records one file may hold unless [`super::LoadOptions::record_cap`] says otherwise. Ten
+/// million steps of a 16-feature state take about 1 GB while loading; a file that declares or
+/// holds more is refused with a located error instead of exhausting memory.
+pub const DEFAULT_RECORD_CAP: usize = 10_000_000;
 
 impl StepTableBuilder {
     /// A builder for the given dimensions.
@@ -221,13 +228,31 @@ impl StepTableBuilder {
             any_intervention: false,
             sample_counts: Vec::new(),
             current_source: 0,
+            source_start: 0,
+            record_cap: DEFAULT_RECORD_CAP,
         }
+    }
+
+    /// Sets the most records one source file may add.
+    pub fn set_record_cap(&mut self, cap: usize) {
+        self.record_cap = cap;
+    }
+
+    /// The most records one source file may add.
+    pub fn record_cap(&self) -> usize {
+        self.record_cap
+    }
+
+    /// True when the current source file has added as many records as the cap allows.
+    pub fn source_full(&self) -> bool {
+        self.len() - self.source_start >= self.record_cap
     }
 
     /// Starts a new source file; later rows are attributed to it. Returns its index.
     pub fn begin_source(&mut self, path: PathBuf) -> usize {
         self.table.sources.push(path);
         self.current_source = self.table.sources.len() - 1;
+        self.source_start = self.len();
         self.current_source
     }
 

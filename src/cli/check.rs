@@ -20,6 +20,9 @@ pub struct CheckArgs {
     /// Treat warnings (actions clipped to bounds, missing frame images) as errors.
     #[arg(long)]
     pub strict: bool,
+    /// Most records one data file may hold; a file with more is refused.
+    #[arg(long, default_value_t = crate::campaign::steps::DEFAULT_RECORD_CAP)]
+    pub max_records: usize,
 }
 
 /// Runs `check`.
@@ -33,6 +36,7 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
     let opts = LoadOptions {
         problem_cap: a.max_problems.max(1),
         strict: a.strict,
+        record_cap: a.max_records.max(1),
     };
     let progress = Progress::new();
     let report = {

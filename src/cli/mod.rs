@@ -5,6 +5,7 @@ mod check;
 mod correct;
 mod demo;
 mod export;
+#[cfg(feature = "gui")]
 mod gui;
 mod plan;
 mod progress_bar;
@@ -52,6 +53,7 @@ pub enum Command {
     /// Compare labelling strategies over several aggregation rounds on the demo scenario.
     Study(study::StudyArgs),
     /// Open the desktop workbench on a campaign folder.
+    #[cfg(feature = "gui")]
     Open(gui::OpenArgs),
 }
 
@@ -59,7 +61,8 @@ pub enum Command {
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
-        None => gui::run_gui(None, Default::default()),
+        None => no_subcommand(),
+        #[cfg(feature = "gui")]
         Some(Command::Open(a)) => gui::run_gui(
             Some(a.dir),
             crate::app::Start {
@@ -83,6 +86,17 @@ pub fn main() -> ExitCode {
             ExitCode::from(e.code)
         }
     }
+}
+
+/// Without a subcommand: the workbench, or (built without the `gui` feature) a usage note.
+fn no_subcommand() -> Result<(), CliError> {
+    #[cfg(feature = "gui")]
+    return gui::run_gui(None, Default::default());
+    #[cfg(not(feature = "gui"))]
+    Err(CliError::usage(
+        "this build has no desktop workbench (built without the `gui` feature).\n\
+         Headless subcommands work: `countersteer check DIR` (see `countersteer --help`).",
+    ))
 }
 
 /// A failed command: the message to print and the exit code.

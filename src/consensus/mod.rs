@@ -97,8 +97,15 @@ impl Tally {
     }
 }
 
-/// Aggregates the ledgers of a campaign.
+/// Aggregates the ledgers of a campaign. The result does not depend on the order of
+/// `ledgers` (they are taken in annotator order), so an export is the same bytes however
+/// its ledgers were listed.
 pub fn tally(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Tally {
+    if !ledgers.is_sorted_by(|a, b| a.annotator <= b.annotator) {
+        let mut sorted = ledgers.to_vec();
+        sorted.sort_by(|a, b| a.annotator.cmp(&b.annotator));
+        return tally(campaign, &sorted);
+    }
     let resolved = resolve::resolve(campaign, ledgers);
     let spec = campaign.spec();
     let steps: Vec<StepConsensus> = resolved

@@ -22,6 +22,51 @@ pub enum LedgerError {
         /// Who holds the lock: pid, host and start time as written in the lock file.
         holder: String,
     },
+    /// Writing a record failed (disk full, a file size limit, a vanished share): the record
+    /// is not saved; every record acknowledged before it is.
+    #[error(
+        "{}: the record was NOT saved ({source}); every record acknowledged before it is safe",
+        path.display()
+    )]
+    NotSaved {
+        /// The ledger file.
+        path: PathBuf,
+        /// The operating system's error.
+        source: std::io::Error,
+    },
+    /// The ledger file on disk is no longer the one this program opened (replaced, moved,
+    /// cut or written by another program): nothing is appended to a stale file.
+    #[error(
+        "{}: the ledger changed on disk since it was opened ({detail}); nothing was written. \
+         Open the ledger again to read what is there now",
+        path.display()
+    )]
+    ChangedOnDisk {
+        /// The ledger file.
+        path: PathBuf,
+        /// What changed.
+        detail: String,
+    },
+    /// The ledger's name is a link: ledgers are plain files (readers skip links), so that no
+    /// correction is written to a place outside the campaign.
+    #[error("{} is a link; a ledger must be a plain file in the ledgers folder", path.display())]
+    IsLink {
+        /// The ledger file.
+        path: PathBuf,
+    },
+    /// The ledger file is larger than any ledger written by hand could be.
+    #[error(
+        "{} holds {len} bytes; a ledger may hold at most {max} (is this file a ledger?)",
+        path.display()
+    )]
+    TooLarge {
+        /// The ledger file.
+        path: PathBuf,
+        /// Its length.
+        len: u64,
+        /// The limit, [`super::MAX_LEDGER_BYTES`].
+        max: u64,
+    },
     /// The annotator name cannot be used as a file name.
     #[error("annotator name `{name}` {reason}")]
     BadAnnotator {

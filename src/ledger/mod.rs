@@ -24,11 +24,28 @@ mod time;
 pub use error::{LedgerError, LedgerProblem};
 pub use fingerprint::fingerprint;
 pub use read::{
-    AnnotatorLedger, FileStamp, ledger_path, ledger_stamps, read_ledger, read_ledgers, sha256_hex,
+    AnnotatorLedger, FileStamp, ledger_path, ledger_stamps, parse_ledger, read_ledger,
+    read_ledgers, sha256_hex,
 };
 pub use record::{ActionValue, Correction, Entry, Record, Retraction, Verdict};
 pub use store::{Ledger, OpenReport, SetAside};
 pub use time::utc_timestamp;
+
+/// Largest ledger file read or opened: about two million corrections, far more than years of
+/// review by one person; a larger file is refused before it is read into memory.
+pub const MAX_LEDGER_BYTES: u64 = 1 << 30;
+
+/// Refuses a file longer than [`MAX_LEDGER_BYTES`].
+pub(crate) fn check_ledger_size(path: &std::path::Path, len: u64) -> Result<(), LedgerError> {
+    if len > MAX_LEDGER_BYTES {
+        return Err(LedgerError::TooLarge {
+            path: path.to_path_buf(),
+            len,
+            max: MAX_LEDGER_BYTES,
+        });
+    }
+    Ok(())
+}
 
 /// Checks an annotator name: 1 to 64 characters of letters, digits, `_`, `-` and `.`, not
 /// starting with `.` (the name becomes a file name).

@@ -152,17 +152,26 @@ pub fn read_ledger(path: &Path) -> Result<AnnotatorLedger, LedgerError> {
         .unwrap_or_default()
         .to_string();
     let stamp = FileStamp::of(path);
+    super::check_ledger_size(path, stamp.map_or(0, |s| s.len))?;
     let bytes = std::fs::read(path).map_err(LedgerError::io(path))?;
-    let p = parse(path, &bytes, &annotator);
-    Ok(AnnotatorLedger {
-        annotator,
+    let mut ledger = parse_ledger(path, &annotator, &bytes);
+    ledger.stamp = stamp;
+    Ok(ledger)
+}
+
+/// Parses ledger bytes as if read from `path` (no stamp): what [`read_ledger`] does after
+/// reading the file.
+pub fn parse_ledger(path: &Path, annotator: &str, bytes: &[u8]) -> AnnotatorLedger {
+    let p = parse(path, bytes, annotator);
+    AnnotatorLedger {
+        annotator: annotator.to_string(),
         path: path.to_path_buf(),
         records: p.records,
         problems: p.problems,
         incomplete_tail: (bytes.len() - p.whole_len) as u64,
-        stamp,
-        sha256: sha256_hex(&bytes),
-    })
+        stamp: None,
+        sha256: sha256_hex(bytes),
+    }
 }
 
 /// Reads every ledger of a campaign (`ledgers/<annotator>.jsonl`), sorted by annotator,

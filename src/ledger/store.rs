@@ -61,6 +61,9 @@ impl Ledger {
         let dir = path.parent().unwrap_or(campaign_root).to_path_buf();
         std::fs::create_dir_all(&dir).map_err(LedgerError::io(&dir))?;
         let lock = acquire(&dir.join(format!("{annotator}.lock")), &path)?;
+        if std::fs::symlink_metadata(&path).is_ok_and(|m| m.file_type().is_symlink()) {
+            return Err(LedgerError::IsLink { path });
+        }
         let created = !path.exists();
         let mut file = OpenOptions::new()
             .read(true)
@@ -71,6 +74,8 @@ impl Ledger {
         if created {
             sync_dir(&dir)?;
         }
+        let len = file.metadata().map_err(LedgerError::io(&path))?.len();
+        super::check_ledger_size(&path, len)?;
         let mut bytes = Vec::new();
         file.read_to_end(&mut bytes)
             .map_err(LedgerError::io(&path))?;
@@ -136,14 +141,7 @@ impl Ledger {
             })
             .collect();
         let bytes: Vec<u8> = records.iter().flat_map(Record::to_line).collect();
-        let written = self
-            .file
-            .write_all(&bytes)
-            .and_then(|()| self.file.sync_data());
-        if let Err(e) = written {
-            let _ = self.file.set_len(self.len);
-            return Err(LedgerError::io(&self.path)(e));
-        }
+        self.write_whole(&bytes)?;
         self.len += bytes.len() as u64;
         self.next_seq += records.len() as u64;
         self.records.extend(records.iter().cloned());
@@ -182,19 +180,61 @@ impl Ledger {
             tool: crate::VERSION.to_string(),
         };
         let line = record.to_line();
-        let written = self
-            .file
-            .write_all(&line)
-            .and_then(|()| self.file.sync_data());
-        if let Err(e) = written {
-            // Cut back a partial line so the next append does not glue onto it.
-            let _ = self.file.set_len(self.len);
-            return Err(LedgerError::io(&self.path)(e));
-        }
+        self.write_whole(&line)?;
         self.len += line.len() as u64;
         self.next_seq += 1;
         self.records.push(record.clone());
         Ok(record)
+    }
+
+    /// Writes bytes at the end of the ledger and fsyncs them, after checking that the file
+    /// on disk is still the one opened. On failure, cuts a partial line back off so that the
+    /// next append does not glue onto it.
+    fn write_whole(&mut self, bytes: &[u8]) -> Result<(), LedgerError> {
+        self.check_unchanged()?;
+        let written = self
+            .file
+            .write_all(bytes)
+            .and_then(|()| self.file.sync_data());
+        if let Err(source) = written {
+            let _ = self
+                .file
+                .set_len(self.len)
+                .and_then(|()| self.file.sync_data());
+            return Err(LedgerError::NotSaved {
+                path: self.path.clone(),
+                source,
+            });
+        }
+        Ok(())
+    }
+
+    /// Refuses to append when the file under the ledger's name is not the open file any more,
+    /// or its length is not what this writer left (another program wrote or cut it).
+    fn check_unchanged(&self) -> Result<(), LedgerError> {
+        let changed = |detail: String| LedgerError::ChangedOnDisk {
+            path: self.path.clone(),
+            detail,
+        };
+        let on_disk = match std::fs::metadata(&self.path) {
+            Ok(m) => m,
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                return Err(changed("the file is gone".into()));
+            }
+            Err(e) => return Err(LedgerError::io(&self.path)(e)),
+        };
+        let open = self.file.metadata().map_err(LedgerError::io(&self.path))?;
+        if !same_file(&on_disk, &open) {
+            return Err(changed("another file now has its name".into()));
+        }
+        if open.len() != self.len {
+            return Err(changed(format!(
+                "it holds {} bytes, this program wrote {}",
+                open.len(),
+                self.len
+            )));
+        }
+        Ok(())
     }
 
     /// The ledger's records, in order (those found on open, then those appended).
@@ -231,6 +271,17 @@ impl Ledger {
     pub fn next_seq(&self) -> u64 {
         self.next_seq
     }
+}
+
+#[cfg(unix)]
+fn same_file(a: &std::fs::Metadata, b: &std::fs::Metadata) -> bool {
+    use std::os::unix::fs::MetadataExt;
+    (a.dev(), a.ino()) == (b.dev(), b.ino())
+}
+
+#[cfg(not(unix))]
+fn same_file(a: &std::fs::Metadata, b: &std::fs::Metadata) -> bool {
+    a.len() == b.len() && a.modified().ok() == b.modified().ok()
 }
 
 /// Copies a torn tail to a new side file (fsync'd), then cuts it from the ledger.

@@ -135,7 +135,7 @@ fn problem_cap_keeps_the_first_and_counts_the_rest() {
     std::fs::write(dir.path().join("rounds/1/many.jsonl"), text).unwrap();
     let opts = LoadOptions {
         problem_cap: 10,
-        strict: false,
+        ..LoadOptions::default()
     };
     let report = check_campaign(dir.path(), &opts, &Progress::new());
     let many: Vec<_> = report

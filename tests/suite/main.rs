@@ -12,25 +12,35 @@ mod common;
 mod bad_inputs;
 mod calibration;
 mod cli_corrections;
+#[cfg(feature = "gui")]
 mod cli_gui;
 mod cli_score_plan;
 mod conformal;
 mod demo_campaign;
+#[cfg(feature = "gui")]
 mod desk;
 mod export;
 mod export_numpy;
+#[cfg(feature = "gui")]
 mod export_window;
+mod fuzz_corpus;
+mod hostile;
 mod krippendorff_fixture;
 mod layering;
 mod ledger_crash;
 mod loaders;
+mod long_sitting;
 mod novelty_knn;
 mod plotting;
+mod properties;
 mod review_plan;
 mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
+mod shared_folder;
 mod sim_closed_loop;
 mod study;
+#[cfg(feature = "gui")]
 mod ui_sitting;
+#[cfg(feature = "gui")]
 mod workbench;

@@ -1,0 +1,159 @@
+//! One entry point per reader of untrusted bytes, for the fuzz targets (`fuzz/`) and for the
+//! test that replays their corpus (`tests/suite/fuzz_corpus.rs`).
+//!
+//! Each function feeds the bytes to the reader exactly as a campaign load would, then checks
+//! what any result must satisfy (a table's arrays agree with its row count, episodes tile
+//! the rows, every problem is located inside the input, a ledger's sequence increases). It
+//! panics when a check fails: to a fuzzer, that panic is the finding.
+
+use std::io::Cursor;
+use std::path::Path;
+
+use crate::campaign::csv::read_csv;
+use crate::campaign::error::{Location, ProblemLog};
+use crate::campaign::folder::parse_campaign_file;
+use crate::campaign::frame::{MAX_DECODE_SIDE, decode_frame_bytes};
+use crate::campaign::jsonl::read_jsonl;
+use crate::campaign::numpy::{NpzSource, Values, read_array, read_numpy};
+use crate::campaign::steps::StepTableBuilder;
+use crate::campaign::validate::RowChecker;
+use crate::campaign::{Problem, Spec, StepTable};
+use crate::ledger::{Entry, parse_ledger};
+use crate::progress::Progress;
+
+/// The spec every step reader is fuzzed against: three features, one continuous and one
+/// discrete action channel (the bad-input corpus's spec).
+pub const SPEC_JSON: &str = r#"{"name": "fuzz", "spec": {
+  "features": [{"name": "offset", "unit": "m"}, {"name": "angle", "unit": "rad"},
+               {"name": "speed", "unit": "m/s"}],
+  "actions": [{"name": "steer", "unit": "rad", "low": -0.5, "high": 0.5},
+              {"name": "mode", "choices": ["cruise", "creep", "halt"]}]}}"#;
+
+/// The spec of [`SPEC_JSON`].
+pub fn spec() -> Spec {
+    match parse_campaign_file(SPEC_JSON.as_bytes()) {
+        Ok(f) => f.spec,
+        Err(p) => panic!("the fuzzing spec does not parse: {p}"),
+    }
+}
+
+/// `campaign.json` bytes.
+pub fn campaign_file(data: &[u8]) {
+    if let Ok(file) = parse_campaign_file(data) {
+        assert!(file.spec.problems().is_empty());
+        assert!(file.novelty.k >= 1);
+    }
+}
+
+/// Which step reader [`steps`] runs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StepFormat {
+    /// JSON Lines.
+    JsonLines,
+    /// CSV.
+    Csv,
+    /// An `.npz` archive.
+    Npz,
+}
+
+/// Step-file bytes through one reader; returns the table and the kept problems.
+pub fn steps(format: StepFormat, data: &[u8]) -> (StepTable, Vec<Problem>) {
+    let spec = spec();
+    let mut checker = RowChecker::new(&spec);
+    let mut b = StepTableBuilder::new(spec.state_dim(), spec.action_dim());
+    b.set_record_cap(10_000);
+    b.begin_source("rounds/1/fuzz".into());
+    let mut log = ProblemLog::new(Path::new("rounds/1/fuzz"), 50);
+    let (dir, progress) = (Path::new("rounds/1"), Progress::new());
+    match format {
+        StepFormat::JsonLines => read_jsonl(data, dir, &mut checker, &mut b, &mut log, &progress),
+        StepFormat::Csv => read_csv(data, dir, &mut checker, &mut b, &mut log, &progress),
+        StepFormat::Npz => match NpzSource::new(Cursor::new(data)) {
+            Ok(mut src) => read_numpy(&mut src, dir, &mut checker, &mut b, &mut log, &progress),
+            Err(_) => return (StepTable::new(3, 2), Vec::new()),
+        },
+    }
+    let table = b.finish();
+    let (problems, _) = log.finish();
+    check_table(&table, &spec);
+    let lines = data.iter().filter(|&&c| c == b'\n').count() as u64 + 1;
+    for p in &problems {
+        if let Location::Line(n) = p.location {
+            assert!(
+                n >= 1 && n <= lines,
+                "{p} is past the input's {lines} lines"
+            );
+        }
+    }
+    (table, problems)
+}
+
+fn check_table(t: &StepTable, spec: &Spec) {
+    let n = t.len();
+    assert!(n <= 10_000, "the record cap let {n} rows through");
+    assert_eq!(t.states.len(), n * spec.state_dim());
+    assert_eq!(t.actions.len(), n * spec.action_dim());
+    assert_eq!(t.origins.len(), n);
+    assert!(t.states.iter().all(|v| v.is_finite()));
+    let mut next = 0;
+    for e in &t.episodes {
+        assert_eq!(e.start, next, "episodes do not tile the rows");
+        assert!(e.len > 0);
+        assert!(
+            t.t[e.rows()].windows(2).all(|w| w[0] < w[1]),
+            "t not increasing"
+        );
+        next += e.len;
+    }
+    assert_eq!(next, n);
+    assert!(
+        t.frames
+            .iter()
+            .all(|(r, f)| (*r as usize) < n && !f.starts_with('/'))
+    );
+    assert!(
+        t.frames
+            .iter()
+            .all(|(_, f)| !f.split('/').any(|c| c == ".."))
+    );
+}
+
+/// One `.npy` array's bytes.
+pub fn npy(data: &[u8]) {
+    if let Ok(a) = read_array(data, data.len() as u64) {
+        let count: u64 = a.shape.iter().product();
+        let got = match &a.values {
+            Values::Numbers(v) => v.len(),
+            Values::Integers(v) => v.len(),
+            Values::Text(v) => v.len(),
+        };
+        assert_eq!(got as u64, count);
+    }
+}
+
+/// Ledger bytes, as read by every reader of a shared campaign folder.
+pub fn ledger(data: &[u8]) {
+    let l = parse_ledger(Path::new("ledgers/fuzz.jsonl"), "fuzz", data);
+    assert!(l.incomplete_tail as usize <= data.len());
+    assert!(l.records.windows(2).all(|w| w[0].seq < w[1].seq));
+    for (i, r) in l.records.iter().enumerate() {
+        assert_eq!(r.annotator, "fuzz");
+        if let Entry::Retraction(x) = &r.entry {
+            let earlier = &l.records[..i];
+            assert!(
+                earlier
+                    .iter()
+                    .any(|c| c.seq == x.retracts && c.correction().is_some())
+            );
+        }
+    }
+    let lines = data.iter().filter(|&&c| c == b'\n').count() as u64;
+    assert!(l.problems.iter().all(|p| p.line >= 1 && p.line <= lines));
+}
+
+/// Frame image bytes.
+pub fn frame(data: &[u8]) {
+    if let Ok(img) = decode_frame_bytes(data) {
+        assert!(img.width() <= MAX_DECODE_SIDE && img.height() <= MAX_DECODE_SIDE);
+    }
+}

@@ -1,0 +1,65 @@
+//! The fuzz corpus, replayed in the normal suite: every seed under `fuzz/corpus/<target>/`
+//! and every input that once crashed a target (`fuzz/regressions/<target>/`) goes through the
+//! same entry point as the fuzz target (`countersteer::fuzzing`), without cargo-fuzz.
+
+use std::path::Path;
+
+use countersteer::fuzzing::{self, StepFormat};
+
+const TARGETS: [&str; 7] = ["spec", "jsonl", "csv", "npy", "npz", "ledger", "frame"];
+
+fn run(target: &str, data: &[u8]) {
+    match target {
+        "spec" => fuzzing::campaign_file(data),
+        "jsonl" => drop(fuzzing::steps(StepFormat::JsonLines, data)),
+        "csv" => drop(fuzzing::steps(StepFormat::Csv, data)),
+        "npz" => drop(fuzzing::steps(StepFormat::Npz, data)),
+        "npy" => fuzzing::npy(data),
+        "ledger" => fuzzing::ledger(data),
+        "frame" => fuzzing::frame(data),
+        other => panic!("no fuzz target `{other}`"),
+    }
+}
+
+fn replay(folder: &str) -> usize {
+    let base = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("fuzz")
+        .join(folder);
+    let mut count = 0;
+    for target in TARGETS {
+        let Ok(entries) = std::fs::read_dir(base.join(target)) else {
+            continue;
+        };
+        for entry in entries {
+            let path = entry.unwrap().path();
+            let data = std::fs::read(&path).unwrap();
+            let outcome = std::panic::catch_unwind(|| run(target, &data));
+            assert!(outcome.is_ok(), "{target}: {} fails", path.display());
+            count += 1;
+        }
+    }
+    count
+}
+
+#[test]
+fn every_seed_of_the_fuzz_corpus_passes_its_target() {
+    assert!(replay("corpus") >= 40);
+}
+
+#[test]
+fn every_input_that_once_crashed_a_target_passes_now() {
+    replay("regressions");
+}
+
+#[test]
+fn the_seeds_are_read_as_the_corpus_says() {
+    // The entry points really read: a good seed gives rows, a faulty one a located problem.
+    let good =
+        std::fs::read(Path::new(env!("CARGO_MANIFEST_DIR")).join("fuzz/corpus/csv/good.csv"));
+    let (table, problems) = fuzzing::steps(StepFormat::Csv, &good.unwrap());
+    assert_eq!(table.len(), 3, "{problems:#?}");
+    assert_eq!(problems.len(), 1, "{problems:#?}"); // steer 0.6 clipped to 0.5
+    let (table, problems) = fuzzing::steps(StepFormat::JsonLines, b"{\"episode\": 1}\n");
+    assert!(table.is_empty());
+    assert_eq!(problems[0].field, "t");
+}
