@@ -5,12 +5,13 @@
 #![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 use crate::common;
+use crate::window_kit::{self, settle};
 
 use std::path::Path;
 use std::process::Command;
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
-use countersteer::app::{UiState, Workbench};
+use countersteer::app::Workbench;
 use countersteer::campaign::{LoadOptions, StepTable, load_campaign};
 use countersteer::ledger::fingerprint;
 use countersteer::progress::Progress;
@@ -21,31 +22,7 @@ use egui_kittest::kittest::Queryable;
 use serde_json::{Value, json};
 
 fn harness(dir: &Path, annotator: &str) -> Harness<'static, Workbench> {
-    let ui = UiState {
-        annotator: annotator.into(),
-        ..UiState::default()
-    };
-    let mut wb = Workbench::new(ui);
-    wb.open(dir);
-    let mut h = Harness::builder()
-        .with_size(egui::vec2(1280.0, 800.0))
-        .with_step_dt(0.1)
-        .build_ui_state(|ui, wb: &mut Workbench| wb.show(ui), wb);
-    settle(&mut h);
-    h
-}
-
-/// Steps frames until no background work is left (or 15 s pass).
-fn settle(h: &mut Harness<'static, Workbench>) {
-    let until = Instant::now() + Duration::from_secs(15);
-    loop {
-        h.step();
-        if !h.state().busy() || Instant::now() > until {
-            break;
-        }
-        std::thread::sleep(Duration::from_millis(5));
-    }
-    h.step();
+    window_kit::harness(dir, annotator)
 }
 
 fn press(h: &mut Harness<'static, Workbench>, key: Key) {

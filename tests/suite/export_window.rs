@@ -3,10 +3,10 @@
 #![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 use crate::common;
+use crate::window_kit::settle;
 
 use std::path::Path;
 use std::process::Command;
-use std::time::{Duration, Instant};
 
 use countersteer::app::{UiState, Workbench};
 use countersteer::export::{Format, Weighting};
@@ -24,18 +24,6 @@ fn cli(args: &[&str]) {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
-}
-
-fn settle(h: &mut Harness<'static, Workbench>) {
-    let until = Instant::now() + Duration::from_secs(15);
-    loop {
-        h.step();
-        if !h.state().busy() || Instant::now() > until {
-            break;
-        }
-        std::thread::sleep(Duration::from_millis(5));
-    }
-    h.step();
 }
 
 #[test]

@@ -43,4 +43,6 @@ mod study;
 #[cfg(feature = "gui")]
 mod ui_sitting;
 #[cfg(feature = "gui")]
+mod window_kit;
+#[cfg(feature = "gui")]
 mod workbench;

@@ -4,42 +4,16 @@
 #![allow(clippy::unwrap_used)] // test helpers may panic on a broken fixture
 
 use crate::common;
+use crate::window_kit;
 
-use std::time::{Duration, Instant};
-
+use countersteer::app::Workbench;
 use countersteer::app::signals::{ExcursionRows, RoundSignals};
-use countersteer::app::{UiState, Workbench};
 use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 
 fn harness(dir: &std::path::Path) -> Harness<'static, Workbench> {
-    // A remembered annotator: no name prompt takes the keyboard.
-    let ui = UiState {
-        annotator: "tester".into(),
-        ..UiState::default()
-    };
-    let mut wb = Workbench::new(ui);
-    wb.open(dir);
-    let mut h = Harness::builder()
-        .with_size(egui::vec2(1280.0, 800.0))
-        .with_step_dt(0.1)
-        .build_ui_state(|ui, wb: &mut Workbench| wb.show(ui), wb);
-    settle(&mut h);
-    h
-}
-
-/// Steps frames until no background work is left (or 15 s pass).
-fn settle(h: &mut Harness<'static, Workbench>) {
-    let until = Instant::now() + Duration::from_secs(15);
-    loop {
-        h.step();
-        if !h.state().busy() || Instant::now() > until {
-            break;
-        }
-        std::thread::sleep(Duration::from_millis(5));
-    }
-    h.step();
+    window_kit::harness(dir, "tester")
 }
 
 #[test]
