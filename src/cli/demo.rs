@@ -16,9 +16,17 @@ pub struct DemoArgs {
     /// Seed of every random draw: the same seed gives the same files.
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
-    /// Episodes in the demonstrations and in each round.
+    /// Learner episodes in each round.
     #[arg(long, default_value_t = 20, value_parser = clap::value_parser!(u16).range(1..=2000))]
     pub episodes: u16,
+    /// Expert demonstration episodes.
+    #[arg(long, default_value_t = DemoConfig::default().demo_episodes as u16,
+          value_parser = clap::value_parser!(u16).range(1..=5000))]
+    pub demo_episodes: u16,
+    /// Steering noise injected while the expert drives the demonstrations (rad, standard
+    /// deviation); the recorded actions stay the expert's clean commands.
+    #[arg(long, default_value_t = DemoConfig::default().demo_steer_noise)]
+    pub demo_steer_noise: f64,
     /// Episodes per round that get top-down frame images.
     #[arg(long, default_value_t = 1)]
     pub frame_episodes: u16,
@@ -26,9 +34,17 @@ pub struct DemoArgs {
 
 /// Runs `demo`.
 pub fn run(a: DemoArgs) -> Result<(), CliError> {
+    if !(0.0..=0.5).contains(&a.demo_steer_noise) {
+        return Err(CliError::usage(format!(
+            "--demo-steer-noise must be between 0 and 0.5 rad, not {}",
+            a.demo_steer_noise
+        )));
+    }
     let cfg = DemoConfig {
         seed: a.seed,
         episodes: a.episodes as usize,
+        demo_episodes: a.demo_episodes as usize,
+        demo_steer_noise: a.demo_steer_noise,
         frame_episodes: a.frame_episodes as usize,
         ..DemoConfig::default()
     };

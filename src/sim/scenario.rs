@@ -19,8 +19,16 @@ use crate::progress::Progress;
 pub struct DemoConfig {
     /// Seed of every random draw.
     pub seed: u64,
-    /// Episodes in the demonstrations and in each round.
+    /// Learner episodes in each round.
     pub episodes: usize,
+    /// Expert demonstration episodes.
+    pub demo_episodes: usize,
+    /// Standard deviation of the steering noise injected while the expert drives the
+    /// demonstrations (rad). The recorded action stays the expert's own clean command, so
+    /// the demonstrations show recoveries from the small errors the noise causes: noise
+    /// injection during demonstration, DART (Laskey et al. 2017, "DART: Noise Injection for
+    /// Robust Imitation Learning"). It replaces the rollout's actuator noise for them.
+    pub demo_steer_noise: f64,
     /// Episodes per round that get frame images (those that strayed furthest from the centreline).
     pub frame_episodes: usize,
     /// Side of the square frame images (pixels).
@@ -48,6 +56,8 @@ impl Default for DemoConfig {
         DemoConfig {
             seed: 1,
             episodes: 20,
+            demo_episodes: 20,
+            demo_steer_noise: 0.02,
             frame_episodes: 1,
             frame_size: 96,
             ensemble_size: 5,
@@ -122,6 +132,25 @@ pub fn run_set(
         .collect()
 }
 
+/// The expert's demonstration episodes: `cfg.demo_episodes` episodes driven by the expert
+/// with `cfg.demo_steer_noise` on the steering actuator.
+pub fn demonstration_runs(cfg: &DemoConfig, progress: &Progress) -> Vec<EpisodeRun> {
+    let expert_only = Drivers {
+        policy: &cfg.expert as &dyn Policy,
+        expert: &cfg.expert,
+        ensemble: None,
+    };
+    let set_cfg = DemoConfig {
+        episodes: cfg.demo_episodes,
+        ..cfg.clone()
+    };
+    let noisy = RolloutConfig {
+        steer_noise: cfg.demo_steer_noise,
+        ..cfg.rollout.clone()
+    };
+    run_set(&set_cfg, 0, &expert_only, &noisy, progress)
+}
+
 /// States and actions of a set of episodes, as training data.
 pub fn training_data(runs: &[EpisodeRun]) -> (Vec<Features>, Vec<Action>) {
     runs.iter()
@@ -131,13 +160,8 @@ pub fn training_data(runs: &[EpisodeRun]) -> (Vec<Features>, Vec<Action>) {
 
 /// Simulates the whole scenario.
 pub fn simulate_demo(cfg: &DemoConfig, progress: &Progress) -> Result<DemoRun, RidgeError> {
-    progress.stage("simulating", 3 * cfg.episodes as u64);
-    let expert_only = Drivers {
-        policy: &cfg.expert as &dyn Policy,
-        expert: &cfg.expert,
-        ensemble: None,
-    };
-    let demonstrations = run_set(cfg, 0, &expert_only, &cfg.rollout, progress);
+    progress.stage("simulating", (cfg.demo_episodes + 2 * cfg.episodes) as u64);
+    let demonstrations = demonstration_runs(cfg, progress);
     let (states, actions) = training_data(&demonstrations);
     let learner = Learner::fit(&states, &actions, None, cfg.lambda)?;
     let boot_seed = SplitMix64::stream(cfg.seed, BOOTSTRAP, 0).next_u64();
@@ -178,4 +202,40 @@ pub fn departure_share(runs: &[EpisodeRun]) -> f64 {
         return 0.0;
     }
     runs.iter().filter(|r| r.metrics.left_lane).count() as f64 / runs.len() as f64
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::sim::expert::label;
+
+    /// DART keeps the expert's clean command as the label: every recorded action is the
+    /// expert's action at the recorded pose, while the injected noise widens the visited
+    /// states (the spread of lateral offsets grows with the noise).
+    #[test]
+    fn demonstrations_record_clean_expert_actions_under_injected_noise() {
+        let spread = |noise: f64| {
+            let cfg = DemoConfig {
+                demo_episodes: 3,
+                demo_steer_noise: noise,
+                ..DemoConfig::default()
+            };
+            let runs = demonstration_runs(&cfg, &Progress::new());
+            assert_eq!(runs.len(), 3);
+            let mut sq = 0.0;
+            let mut n = 0.0;
+            for run in &runs {
+                for st in &run.steps {
+                    let (f, a) = label(&cfg.expert, &run.lane, &st.pose);
+                    assert!((a.steer - st.action.steer).abs() < 1e-9);
+                    assert!((a.accel - st.action.accel).abs() < 1e-9);
+                    sq += f[0] * f[0];
+                    n += 1.0;
+                }
+            }
+            (sq / n).sqrt()
+        };
+        let (quiet, noisy) = (spread(0.0), spread(0.1));
+        assert!(noisy > 1.5 * quiet, "rms lateral {quiet} -> {noisy}");
+    }
 }

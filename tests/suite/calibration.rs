@@ -119,3 +119,105 @@ fn flag_share_on_fresh_demo_scenario_expert_episodes_is_at_most_alpha_plus_margi
     );
     assert!(share <= ALPHA + m, "share {share} > {ALPHA} + {m}");
 }
+
+/// The expert drives until the lane's arc length passes `from`, then its steering gets a
+/// constant bias: a fault whose effect on the state is known, so the step at which the rover
+/// leaves expert territory can be read off the simulator instead of the novelty score.
+struct BiasedExpert {
+    expert: countersteer::sim::PurePursuit,
+    from: f64,
+    bias: f64,
+}
+
+impl countersteer::sim::Policy for BiasedExpert {
+    fn act(&self, obs: &countersteer::sim::Observation<'_>) -> countersteer::sim::Action {
+        let mut a = self.expert.act(obs);
+        if obs.projection.s >= self.from {
+            a.steer = self.bias;
+        }
+        a.clipped()
+    }
+}
+
+/// Onsets on the orchard-rover simulator. Demonstrations: the expert with injected steering
+/// noise (DART). Learner episodes: the same expert on fresh lanes with a steering bias from
+/// 30 m on, so the rover drifts out of the lane. Expert territory is taken from the
+/// demonstrations alone: the range of lateral offset and heading error they ever visited.
+/// The excursion holding the step where the rover leaves that range must open no earlier
+/// than the fault and no later than a few steps after leaving.
+#[test]
+fn excursion_onsets_on_the_simulator_follow_the_rover_out_of_expert_territory() {
+    use countersteer::novelty::build_model_from;
+    use countersteer::novelty::scale::feature_scales;
+    use countersteer::sim::features::{HEADING, LATERAL};
+    use countersteer::sim::scenario::{demonstration_runs, run_set};
+    use countersteer::sim::write::table;
+    use countersteer::sim::{DemoConfig, Drivers, Policy, demo_spec};
+    let p = Progress::new();
+    let cfg = DemoConfig {
+        demo_episodes: 60,
+        demo_steer_noise: 0.08,
+        episodes: 12,
+        ..Default::default()
+    };
+    let demo_runs = demonstration_runs(&cfg, &p);
+    let demos = table(&demo_runs, "frames", 0, false);
+    let envelope = |j: usize| {
+        (0..demos.len())
+            .map(|r| demos.states[r * demos.state_dim + j].abs())
+            .fold(0.0f32, f32::max)
+    };
+    let (lat_max, head_max) = (envelope(LATERAL), envelope(HEADING));
+    let faulty = BiasedExpert {
+        expert: cfg.expert.clone(),
+        from: 30.0,
+        bias: 0.08,
+    };
+    let drivers = Drivers {
+        policy: &faulty as &dyn Policy,
+        expert: &cfg.expert,
+        ensemble: None,
+    };
+    let fresh = DemoConfig {
+        seed: 7,
+        ..cfg.clone()
+    };
+    let runs = run_set(&fresh, 1, &drivers, &fresh.rollout, &p);
+    let steps = table(&runs, "frames", 0, false);
+    let scale = feature_scales(&demo_spec(), &demos);
+    let model = build_model_from(&demos, scale, 5, ALPHA, &p).unwrap();
+    let s = countersteer::novelty::score_steps(&model, &demos, &demo_spec().actions, &steps, &p)
+        .unwrap();
+    let ex = excursions(&steps, &s, &ExcursionSettings::default());
+    let mut leads = Vec::new();
+    for (e, (ep, run)) in steps.episodes.iter().zip(&runs).enumerate() {
+        let fault = run
+            .steps
+            .iter()
+            .position(|st| run.lane.project(st.pose.x, st.pose.y, None).s >= faulty.from)
+            .unwrap();
+        // Start poses are drawn with a spread and may already lie outside the envelope: only
+        // leaving after the fault counts.
+        let leave = (fault..ep.len)
+            .find(|&i| {
+                let r = (ep.start + i) * steps.state_dim;
+                steps.states[r + LATERAL].abs() > lat_max
+                    || steps.states[r + HEADING].abs() > head_max
+            })
+            .unwrap_or_else(|| panic!("{}: never leaves expert territory", ep.name));
+        let x = ex
+            .iter()
+            .find(|x| x.episode == e && x.onset <= ep.start + leave && x.end >= ep.start + leave)
+            .unwrap_or_else(|| panic!("{}: no excursion holds step {leave}", ep.name));
+        let onset = x.onset - ep.start;
+        assert!(
+            onset + 5 >= fault && onset <= leave + 5,
+            "{}: onset {onset}, fault {fault}, leaves at {leave}",
+            ep.name
+        );
+        leads.push(leave as i64 - onset as i64);
+    }
+    eprintln!(
+        "envelope |lateral| {lat_max}, |heading| {head_max}; steps before leaving: {leads:?}"
+    );
+}

@@ -17,6 +17,7 @@ fn small(seed: u64) -> DemoConfig {
     let mut cfg = DemoConfig {
         seed,
         episodes: 3,
+        demo_episodes: 3,
         frame_size: 24,
         ..DemoConfig::default()
     };
@@ -47,6 +48,7 @@ fn written_demo_loads_cleanly_with_every_part_of_the_format() {
     let dir = tmp.path().join("demo");
     let mut cfg = small(4);
     cfg.episodes = 6;
+    cfg.demo_episodes = 5;
     cfg.rollout.max_steps = 300; // long enough for the learner to need the expert
     let summary = write_demo_campaign(&dir, &cfg, &Progress::new()).unwrap();
     let strict = LoadOptions {
@@ -58,7 +60,8 @@ fn written_demo_loads_cleanly_with_every_part_of_the_format() {
     let c = load_campaign(&dir, &strict, &Progress::new()).unwrap();
     assert_eq!(c.spec().state_dim(), 7);
     assert_eq!(c.file.step_seconds, Some(0.1));
-    assert_eq!(c.demonstrations.episodes.len(), 6);
+    assert_eq!(c.demonstrations.episodes.len(), 5);
+    assert_eq!(c.round(1).unwrap().steps.episodes.len(), 6);
     assert_eq!(c.rounds.len(), 2);
     let r1 = &c.round(1).unwrap().steps;
     assert_eq!(r1.samples(0).map(|s| s.count()), Some(5));
