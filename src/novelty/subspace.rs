@@ -75,7 +75,7 @@ impl Subspace {
         axes: &Axes,
         m: usize,
     ) -> Result<Self, String> {
-        let m = m.min(dim);
+        let m = m.min(dim).min(SUBSPACE_TREE_DIM - 1);
         let mut points = Vec::with_capacity(rows.len() * dim);
         for &r in rows {
             let s = &states[r as usize * dim..(r as usize + 1) * dim];
@@ -106,15 +106,24 @@ impl Subspace {
         self.m
     }
 
+    /// The tree coordinates of a scaled state: its `m` components and its residual norm.
+    /// Works on the centred state without allocating (it runs once per query).
     fn embed(&self, x: &[f32], out: &mut [f32]) {
-        let c: Vec<f32> = x.iter().zip(&self.mean).map(|(a, b)| a - b).collect();
         let mut in_plane = 0.0f32;
         for (k, o) in out[..self.m].iter_mut().enumerate() {
             let v = &self.basis[k * self.dim..(k + 1) * self.dim];
-            *o = dot(v, &c);
+            *o = v
+                .iter()
+                .zip(x.iter().zip(&self.mean))
+                .map(|(w, (a, b))| w * (a - b))
+                .sum();
             in_plane += *o * *o;
         }
-        let total = dot(&c, &c);
+        let total: f32 = x
+            .iter()
+            .zip(&self.mean)
+            .map(|(a, b)| (a - b) * (a - b))
+            .sum();
         out[self.m] = (total - in_plane).max(0.0).sqrt();
     }
 
@@ -124,23 +133,34 @@ impl Subspace {
     }
 
     /// The `k` nearest points within squared distance `bound2`, exact, ascending.
+    ///
+    /// Multi-step search (filter and refine; Seidl & Kriegel 1998, "Optimal multi-step
+    /// k-nearest neighbor search"): the tree gives the `2k` points of smallest lower bound,
+    /// whose exact distances give an upper bound `u` on the k-th distance. Every other point's
+    /// lower bound is at least the largest one handed out, so when that exceeds `u` (or the
+    /// tree handed out every point within `bound2`) the answer is already complete; only
+    /// otherwise does a radius search collect every point whose lower bound is within `u`.
     pub fn knn(&self, q: &[f32], k: usize, bound2: f32, out: &mut Vec<Hit>) {
         out.clear();
-        let mut e = vec![0.0f32; self.m + 1];
-        self.embed(q, &mut e);
-        let mut cand = Vec::new();
-        self.tree.knn(&e, (2 * k).max(8), bound2, &mut cand);
+        let mut e = [0.0f32; SUBSPACE_TREE_DIM];
+        let e = &mut e[..self.m + 1];
+        self.embed(q, e);
+        let want = (2 * k).max(8);
+        let mut cand = Vec::with_capacity(want);
+        self.tree.knn(e, want, bound2, &mut cand);
         let mut exact: Vec<Hit> = cand.iter().map(|&(i, _)| (i, self.exact(q, i))).collect();
         exact.sort_by(|a, b| a.1.total_cmp(&b.1));
         let upper = match exact.get(k.saturating_sub(1)) {
             Some(&(_, d)) if k > 0 => d.min(bound2),
             _ => bound2,
         };
-        if upper.is_finite() {
-            self.tree.within(&e, upper * (1.0 + 1e-5), &mut cand);
+        let margin = upper * (1.0 + 1e-5);
+        let complete = cand.len() < want || cand.last().is_some_and(|h| h.1 > margin);
+        if !complete && upper.is_finite() {
+            self.tree.within(e, margin, &mut cand);
             exact.clear();
             exact.extend(cand.iter().map(|&(i, _)| (i, self.exact(q, i))));
-            exact.retain(|h| h.1 <= upper * (1.0 + 1e-5));
+            exact.retain(|h| h.1 <= margin);
             exact.sort_by(|a, b| a.1.total_cmp(&b.1));
         }
         out.extend(
@@ -150,10 +170,6 @@ impl Subspace {
                 .map(|&(i, d)| (self.rows[i as usize], d)),
         );
     }
-}
-
-fn dot(a: &[f32], b: &[f32]) -> f32 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
 }
 
 /// Principal axes of `rows` of `states` scaled by `inv_scale`, from at most
