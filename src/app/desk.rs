@@ -46,9 +46,11 @@ fn body_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
         channel_ui(wb, i, ch, ui, cmds);
     }
     verdict_ui(wb, ui, cmds);
+    // The pad enters two channels at once: it follows the verdicts, above the other
+    // annotators' verdicts, so that on a short screen it is the first thing to scroll.
+    pad_ui(wb, &b, ui, cmds);
     ui.separator();
     others_ui(wb, &b, ui);
-    pad_ui(wb, &b, ui, cmds);
 }
 
 fn who_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
