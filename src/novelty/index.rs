@@ -12,9 +12,6 @@
 //! Distances handed out by this module are SQUARED Euclidean distances in scaled units.
 
 use std::num::NonZeroUsize;
-use std::sync::{Arc, OnceLock};
-
-use rayon::prelude::*;
 
 use kiddo::ImmutableKdTree;
 use kiddo::dist::SquaredEuclidean;
@@ -131,21 +128,6 @@ pub fn choose_path(
     (tree_width(m + 1) < tree_width(dim)).then_some((axes, m))
 }
 
-/// Every row of `states` multiplied by `inv_scale`.
-fn scaled(states: &[f32], dim: usize, inv_scale: &[f32]) -> Arc<[f32]> {
-    let mut out = vec![0.0f32; states.len()];
-    out.par_chunks_mut(dim * 4096)
-        .zip(states.par_chunks(dim * 4096))
-        .for_each(|(o, s)| {
-            for (o, s) in o.chunks_exact_mut(dim).zip(s.chunks_exact(dim)) {
-                for ((o, x), i) in o.iter_mut().zip(s).zip(inv_scale) {
-                    *o = x * i;
-                }
-            }
-        });
-    out.into()
-}
-
 enum Kind {
     Tree(Box<dyn TreeBackend>),
     Subspace(Box<Subspace>),
@@ -177,44 +159,14 @@ impl KnnIndex {
         inv_scale: &[f32],
         rows: &[u32],
     ) -> Result<Self, String> {
-        Self::build_in(states, dim, inv_scale, rows, &OnceLock::new())
-    }
-
-    /// Two indexes over the same demonstrations (the calibration's fit part and all of
-    /// them), built at the same time on two threads. The subspace path's scaled copy of the
-    /// states is made once and shared.
-    pub fn build_pair(
-        states: &[f32],
-        dim: usize,
-        inv_scale: &[f32],
-        (a, b): (&[u32], &[u32]),
-    ) -> Result<(Self, Self), String> {
-        let shared = OnceLock::new();
-        let (a, b) = rayon::join(
-            || Self::build_in(states, dim, inv_scale, a, &shared),
-            || Self::build_in(states, dim, inv_scale, b, &shared),
-        );
-        Ok((a?, b?))
-    }
-
-    fn build_in(
-        states: &[f32],
-        dim: usize,
-        inv_scale: &[f32],
-        rows: &[u32],
-        shared: &OnceLock<Arc<[f32]>>,
-    ) -> Result<Self, String> {
         let kind = match choose_path(states, dim, inv_scale, rows) {
             None => {
                 let axis = |r: u32, j: usize| states[r as usize * dim + j] * inv_scale[j];
                 Kind::Tree(build_tree(dim, rows, axis)?)
             }
-            Some((axes, m)) => {
-                let points = shared
-                    .get_or_init(|| scaled(states, dim, inv_scale))
-                    .clone();
-                Kind::Subspace(Box::new(Subspace::build(points, dim, rows, &axes, m)?))
-            }
+            Some((axes, m)) => Kind::Subspace(Box::new(Subspace::build(
+                states, dim, inv_scale, rows, &axes, m,
+            )?)),
         };
         Ok(KnnIndex {
             dim,

@@ -117,10 +117,9 @@ pub fn build_model_from(
         });
     }
     let inv_scale: Vec<f32> = scale.iter().map(|s| 1.0 / s).collect();
-    progress.stage("indexing", 1);
-    let all: Vec<u32> = (0..demos.len() as u32).collect();
-    let (fit, index) = KnnIndex::build_pair(&demos.states, d, &inv_scale, (&fit_rows, &all))
-        .map_err(NoveltyError::Index)?;
+    progress.stage("indexing", 2);
+    let fit =
+        KnnIndex::build(&demos.states, d, &inv_scale, &fit_rows).map_err(NoveltyError::Index)?;
     progress.advance(1);
     let cal_rows = calibration_rows(demos, &split.calibration);
     let hits = seeded_knn(
@@ -134,6 +133,10 @@ pub fn build_model_from(
     )?;
     let novelties: Vec<f32> = hits.chunks_exact(k).map(kth_distance).collect();
     drop(fit);
+    let all: Vec<u32> = (0..demos.len() as u32).collect();
+    progress.stage("indexing", 1);
+    let index = KnnIndex::build(&demos.states, d, &inv_scale, &all).map_err(NoveltyError::Index)?;
+    progress.advance(1);
     Ok(NoveltyModel {
         scale,
         inv_scale,

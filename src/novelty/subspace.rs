@@ -14,8 +14,6 @@
 //! measures those exactly. The answer is exact; only the speed depends on how much of the
 //! variance the subspace holds.
 
-use std::sync::Arc;
-
 use super::index::{Hit, TreeBackend, build_tree};
 
 /// Widest tree of the subspace path: principal components plus the residual norm.
@@ -33,7 +31,7 @@ pub struct Subspace {
     mean: Vec<f32>,
     /// `m` basis vectors of length `dim`, row-major.
     basis: Vec<f32>,
-    points: Arc<[f32]>,
+    points: Vec<f32>,
     rows: Vec<u32>,
     tree: Box<dyn TreeBackend>,
 }
@@ -67,17 +65,22 @@ pub fn components_for(values: &[f64]) -> usize {
 }
 
 impl Subspace {
-    /// Builds the index over `rows` of the scaled demonstration states `points` (all rows,
-    /// row-major, `dim` wide; shared with other indexes over the same demonstrations), on the
-    /// first `m` of `axes` (see [`principal_axes`] and [`components_for`]).
+    /// Builds the index over `rows` of `states` scaled by `inv_scale`, on the first `m` of
+    /// `axes` (see [`principal_axes`] and [`components_for`]).
     pub fn build(
-        points: Arc<[f32]>,
+        states: &[f32],
         dim: usize,
+        inv_scale: &[f32],
         rows: &[u32],
         axes: &Axes,
         m: usize,
     ) -> Result<Self, String> {
         let m = m.min(dim).min(SUBSPACE_TREE_DIM - 1);
+        let mut points = Vec::with_capacity(rows.len() * dim);
+        for &r in rows {
+            let s = &states[r as usize * dim..(r as usize + 1) * dim];
+            points.extend(s.iter().zip(inv_scale).map(|(x, i)| x * i));
+        }
         let (mean, basis) = (axes.mean.clone(), axes.vectors[..m * dim].to_vec());
         let mut s = Subspace {
             dim,
@@ -90,8 +93,8 @@ impl Subspace {
         };
         let e = m + 1;
         let mut embedded = vec![0.0f32; rows.len() * e];
-        for (&r, out) in rows.iter().zip(embedded.chunks_exact_mut(e)) {
-            s.embed(&s.points[r as usize * dim..(r as usize + 1) * dim], out);
+        for (i, out) in embedded.chunks_exact_mut(e).enumerate() {
+            s.embed(&s.points[i * dim..(i + 1) * dim], out);
         }
         let ids: Vec<u32> = (0..rows.len() as u32).collect();
         s.tree = build_tree(e, &ids, |i, j| embedded[i as usize * e + j])?;
@@ -125,8 +128,7 @@ impl Subspace {
     }
 
     fn exact(&self, q: &[f32], i: u32) -> f32 {
-        let r = self.rows[i as usize] as usize;
-        let p = &self.points[r * self.dim..(r + 1) * self.dim];
+        let p = &self.points[i as usize * self.dim..(i as usize + 1) * self.dim];
         p.iter().zip(q).map(|(a, b)| (a - b) * (a - b)).sum()
     }
 
