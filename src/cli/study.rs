@@ -8,7 +8,7 @@ use clap::Args;
 use super::{CliError, progress_bar::Bar};
 use crate::progress::Progress;
 use crate::study::{
-    ResultRow, Strategy, StudyConfig, output_dir, run_study, write_csv, write_plot,
+    LearnerKind, ResultRow, Strategy, StudyConfig, output_dir, run_study, write_csv, write_plot,
 };
 
 /// Arguments of `study`.
@@ -34,11 +34,21 @@ pub struct StudyArgs {
     /// Expert labels per round for the budgeted strategies.
     #[arg(long, default_value_t = 300)]
     pub budget: usize,
+    /// The learner refit after every round: ridge, knn or rbf.
+    #[arg(long, default_value = "knn")]
+    pub learner: String,
 }
 
 /// Runs `study`.
 pub fn run(a: StudyArgs) -> Result<(), CliError> {
+    let learner = LearnerKind::from_name(&a.learner).ok_or_else(|| {
+        CliError::usage(format!(
+            "--learner {}: expected ridge, knn or rbf",
+            a.learner
+        ))
+    })?;
     let cfg = StudyConfig {
+        learner,
         seed: a.seed,
         rounds: a.rounds.max(1),
         demo_episodes: a.demo_episodes.max(2),

@@ -87,8 +87,13 @@ impl<'a> Cover<'a> {
 
     /// The alive candidate farthest from every centre; ties go to the lowest index.
     pub fn farthest(&self) -> Option<usize> {
+        self.farthest_among(|_| true)
+    }
+
+    /// Like [`Cover::farthest`], among the alive candidates `allowed` accepts.
+    pub fn farthest_among(&self, allowed: impl Fn(usize) -> bool) -> Option<usize> {
         let mut best: Option<usize> = None;
-        for i in (0..self.len()).filter(|&i| self.alive[i]) {
+        for i in (0..self.len()).filter(|&i| self.alive[i] && allowed(i)) {
             if best.is_none_or(|b| self.nearest[i] > self.nearest[b]) {
                 best = Some(i);
             }

@@ -4,17 +4,22 @@
 //! onset (the first step out of expert territory, where a correction can still recover), an
 //! excursion peak, one of the `pre_intervention` steps before the expert took over (the
 //! learner's last decisions), or its action gap is at least `action_gap_min` (at most
-//! `pool_factor * budget` of those, largest first).
+//! `pool_factor * budget` of those, largest first). Every other flagged step inside an
+//! excursion is a *filler* candidate: it is only chosen once the candidates above are spent
+//! (see Diversity), so a budget larger than the excursions' onsets and peaks is spent on the
+//! excursions' least covered steps instead of being left unused.
 //!
 //! **Priority.** `priority = sum of the reasons' weights + 0.25 * min(novelty / threshold, 4) / 4`,
-//! with weights onset 1.0, before intervention 0.7, peak 0.4, action gap 0.3: an onset outranks
+//! with weights onset 1.0, before intervention 0.7, peak 0.4, action gap 0.3, inside an
+//! excursion 0.1: an onset outranks
 //! any single other reason however novel, then come the moments before a takeover, and among
 //! equals the more novel step.
 //!
 //! **Diversity.** The `pool_factor * budget` highest-priority candidates enter a greedy
 //! k-center selection in scaled state space ([`super::kcenter`]) seeded with the states that
 //! already have corrections. With no correction the first pick is the top-priority candidate;
-//! each later pick is the candidate farthest from every correction and earlier pick. A pick
+//! each later pick is the candidate farthest from every correction and earlier pick, fillers
+//! only once no other candidate is left (then they are picked by the same rule). A pick
 //! removes every candidate of the same episode less than `min_gap` steps away. Selection stops
 //! at the budget, when no candidate is left, or when the farthest candidate is no more than
 //! `min_distance` from a correction or pick. The chosen entries are listed by priority
@@ -44,6 +49,8 @@ pub enum Reason {
     BeforeIntervention,
     /// The learner's action differs much from the experts' nearby.
     ActionGap,
+    /// A flagged step inside an excursion (a filler: chosen only when the others are spent).
+    InsideExcursion,
 }
 
 impl Reason {
@@ -54,6 +61,7 @@ impl Reason {
             Reason::BeforeIntervention => 0.7,
             Reason::ExcursionPeak => 0.4,
             Reason::ActionGap => 0.3,
+            Reason::InsideExcursion => 0.1,
         }
     }
 
@@ -64,6 +72,7 @@ impl Reason {
             Reason::ExcursionPeak => "peak",
             Reason::BeforeIntervention => "before-intervention",
             Reason::ActionGap => "action-gap",
+            Reason::InsideExcursion => "inside-excursion",
         }
     }
 }
@@ -147,6 +156,13 @@ struct Candidate {
     priority: f32,
 }
 
+impl Candidate {
+    /// A filler: only inside an excursion, for no other reason.
+    fn is_filler(&self) -> bool {
+        self.reasons == [Reason::InsideExcursion]
+    }
+}
+
 /// The scores-only part of planning, kept to re-plan cheaply as corrections arrive.
 #[derive(Debug, Clone)]
 pub struct Planner {
@@ -173,9 +189,15 @@ fn candidate_reasons(
     s: &PlanSettings,
 ) -> BTreeMap<usize, Vec<Reason>> {
     let mut m: BTreeMap<usize, Vec<Reason>> = BTreeMap::new();
+    let alpha = s.excursion.alpha.unwrap_or(scores.alpha) as f32;
     for x in excursions(steps, scores, &s.excursion) {
         m.entry(x.onset).or_default().push(Reason::ExcursionOnset);
         m.entry(x.peak).or_default().push(Reason::ExcursionPeak);
+        for r in (x.onset + 1..x.end + 1).filter(|&r| r != x.peak) {
+            if scores.p_value[r] <= alpha {
+                m.entry(r).or_default().push(Reason::InsideExcursion);
+            }
+        }
     }
     if !steps.interventions.is_empty() {
         for ep in &steps.episodes {
@@ -212,6 +234,9 @@ impl Planner {
             .map(|(row, mut reasons)| {
                 reasons.sort_unstable();
                 reasons.dedup();
+                if reasons.len() > 1 {
+                    reasons.retain(|&r| r != Reason::InsideExcursion);
+                }
                 let priority = priority(&reasons, scores.novelty[row], scores.threshold);
                 Candidate {
                     row,
@@ -274,12 +299,17 @@ impl Planner {
             cover.add_center(&scaled);
         }
         let mut entries = Vec::new();
+        let mut fillers = false;
         while entries.len() < limit {
-            let Some(i) = cover.farthest() else { break };
-            let distance = cover.distance(i);
-            if distance <= self.settings.min_distance {
-                break;
-            }
+            let next = cover.farthest_among(|i| fillers || !self.pool[i].is_filler());
+            let distance = next.map_or(0.0, |i| cover.distance(i));
+            let Some(i) = next.filter(|_| distance > self.settings.min_distance) else {
+                if fillers {
+                    break;
+                }
+                fillers = true;
+                continue;
+            };
             cover.pick(i);
             self.drop_near(&mut cover, steps, i);
             entries.push(self.entry(steps, scores, i, distance, entries.len()));

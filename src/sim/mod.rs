@@ -11,9 +11,11 @@
 pub mod expert;
 pub mod features;
 pub mod frames;
+pub mod knn;
 pub mod lane;
 pub mod learner;
 pub mod policy;
+pub mod rbf;
 pub mod ridge;
 pub mod rng;
 pub mod rollout;

@@ -14,7 +14,10 @@ use crate::review::{PlanSettings, plan};
 use crate::sim::features::FEATURE_COUNT;
 use crate::sim::rng::SplitMix64;
 use crate::sim::scenario::run_set;
-use crate::sim::{Action, DemoConfig, Drivers, EpisodeRun, Learner, RolloutConfig, demo_spec};
+use std::sync::Arc;
+
+use super::model::{LearnerKind, Model};
+use crate::sim::{Action, DemoConfig, Drivers, EpisodeRun, RolloutConfig, demo_spec};
 
 /// The annotator name under which the scripted expert's labels are written.
 pub const SCRIPTED_EXPERT: &str = "scripted-expert";
@@ -33,7 +36,7 @@ pub fn expert_runs(cfg: &DemoConfig, set: u64, progress: &Progress) -> Vec<Episo
 pub fn learner_runs(
     cfg: &DemoConfig,
     set: u64,
-    learner: &Learner,
+    learner: &Model,
     rollout: &RolloutConfig,
     progress: &Progress,
 ) -> Vec<EpisodeRun> {
@@ -46,9 +49,9 @@ pub fn learner_runs(
 }
 
 /// Fits a learner on the states and actions of some episodes.
-pub fn fit_runs(runs: &[EpisodeRun], lambda: f64) -> Result<Learner, String> {
+pub fn fit_runs(runs: &[EpisodeRun], kind: LearnerKind) -> Result<Arc<Model>, String> {
     let (x, y) = crate::sim::scenario::training_data(runs);
-    Learner::fit(&x, &y, None, lambda).map_err(|e| e.to_string())
+    Model::fit(kind, &x, &y, None)
 }
 
 /// A strategy's campaign folder and learner.
@@ -56,11 +59,11 @@ pub struct StrategyRun {
     strategy: Strategy,
     dir: PathBuf,
     /// The current learner.
-    pub learner: Learner,
+    pub learner: Arc<Model>,
     /// Expert labels spent so far.
     pub labels: usize,
     corrected: Vec<f32>,
-    lambda: f64,
+    kind: LearnerKind,
 }
 
 fn io(e: std::io::Error) -> String {
@@ -73,7 +76,8 @@ impl StrategyRun {
         strategy: Strategy,
         dir: &Path,
         demos: &[EpisodeRun],
-        learner: Learner,
+        learner: Arc<Model>,
+        kind: LearnerKind,
     ) -> Result<Self, String> {
         if dir.exists() {
             std::fs::remove_dir_all(dir).map_err(io)?;
@@ -91,14 +95,13 @@ impl StrategyRun {
             "demonstrations",
             &crate::sim::write::table(demos, "", 0, false),
         )?;
-        let lambda = DemoConfig::default().lambda;
         Ok(StrategyRun {
             strategy,
             dir: dir.to_path_buf(),
             learner,
             labels: 0,
             corrected: Vec::new(),
-            lambda,
+            kind,
         })
     }
 
@@ -216,11 +219,12 @@ impl StrategyRun {
                     min_gap: 3,
                     ..PlanSettings::default()
                 };
-                plan(steps, &scores, &self.corrected, &settings)
-                    .entries
-                    .iter()
-                    .map(|e| e.row)
-                    .collect()
+                let l = plan(steps, &scores, &self.corrected, &settings);
+                if std::env::var_os("STUDY_DEBUG").is_some() {
+                    let ex = crate::review::excursions::excursions(steps, &scores, &settings.excursion);
+                    eprintln!("round {r}: n {n} flagged {} excursions {} candidates {} pool {} entries {} radius {}", scores.flagged_count(), ex.len(), l.candidates, l.pool, l.entries.len(), l.covering_radius);
+                }
+                l.entries.iter().map(|e| e.row).collect()
             }
         })
     }
@@ -285,8 +289,7 @@ impl StrategyRun {
         });
         let y: Vec<Action> = a.collect();
         let w: Vec<f64> = merged.weight.iter().map(|&v| f64::from(v)).collect();
-        self.learner = Learner::fit(&x, &y, Some(&w), self.lambda)
-            .map_err(|e| step_err("fit")(e.to_string()))?;
+        self.learner = Model::fit(self.kind, &x, &y, Some(&w)).map_err(step_err("fit"))?;
         Ok(())
     }
 }

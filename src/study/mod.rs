@@ -19,14 +19,16 @@
 
 pub mod chain;
 mod label;
+pub mod model;
 mod report;
 
 use std::path::{Path, PathBuf};
 
+pub use model::{LearnerKind, Model};
 pub use report::{write_csv, write_plot};
 
 use crate::progress::Progress;
-use crate::sim::{DemoConfig, EpisodeRun, Learner, RolloutConfig};
+use crate::sim::{DemoConfig, EpisodeRun, RolloutConfig};
 
 /// A labelling strategy.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
@@ -84,6 +86,8 @@ pub struct StudyConfig {
     pub bootstrap: usize,
     /// Strategies to run.
     pub strategies: Vec<Strategy>,
+    /// The learner refit after every round.
+    pub learner: LearnerKind,
 }
 
 impl Default for StudyConfig {
@@ -97,6 +101,7 @@ impl Default for StudyConfig {
             budget: 300,
             bootstrap: 1000,
             strategies: Strategy::ALL.to_vec(),
+            learner: LearnerKind::Knn,
         }
     }
 }
@@ -169,7 +174,7 @@ pub fn run_study(
 ) -> Result<Vec<ResultRow>, StudyError> {
     let demo_cfg = sim_config(cfg, cfg.demo_episodes);
     let demos = label::expert_runs(&demo_cfg, 0, progress);
-    let learner0 = label::fit_runs(&demos, demo_cfg.lambda).map_err(step_err("fit"))?;
+    let learner0 = label::fit_runs(&demos, cfg.learner).map_err(step_err("fit"))?;
     let eval_cfg = sim_config(cfg, cfg.eval_episodes);
     let first = evaluate(cfg, &eval_cfg, &learner0, progress);
     let mut rows = Vec::new();
@@ -188,13 +193,13 @@ pub fn run_study(
             cost: first.2,
         });
         let dir = work.join(s.name());
-        let mut run = label::StrategyRun::create(s, &dir, &demos, learner0.clone())
+        let mut run = label::StrategyRun::create(s, &dir, &demos, learner0.clone(), cfg.learner)
             .map_err(step_err("setup"))?;
         for r in 1..=cfg.rounds {
             progress.stage(&format!("{} round {r}", s.name()), 0);
             let before = run.labels;
             let budget = match (s, review_spend.get(r - 1)) {
-                (Strategy::Random, Some(&b)) => b,
+                (Strategy::Random | Strategy::TopNovelty, Some(&b)) => b,
                 _ => cfg.budget,
             };
             run.round(cfg, r, budget, progress)?;
@@ -220,7 +225,7 @@ pub fn run_study(
 pub fn evaluate(
     cfg: &StudyConfig,
     eval_cfg: &DemoConfig,
-    learner: &Learner,
+    learner: &Model,
     progress: &Progress,
 ) -> (Estimate, Estimate, Estimate) {
     let runs = label::learner_runs(
