@@ -35,7 +35,7 @@ pub struct StudyArgs {
     #[arg(long, default_value_t = 300)]
     pub budget: usize,
     /// The learner refit after every round: ridge, knn or rbf.
-    #[arg(long, default_value = "knn")]
+    #[arg(long, default_value = "rbf")]
     pub learner: String,
 }
 

@@ -5,9 +5,9 @@
 //! excursion peak, one of the `pre_intervention` steps before the expert took over (the
 //! learner's last decisions), or its action gap is at least `action_gap_min` (at most
 //! `pool_factor * budget` of those, largest first). Every other flagged step inside an
-//! excursion is a *filler* candidate: it is only chosen once the candidates above are spent
-//! (see Diversity), so a budget larger than the excursions' onsets and peaks is spent on the
-//! excursions' least covered steps instead of being left unused.
+//! excursion is a *filler* candidate (unless `fill` is off): it is only chosen once the
+//! candidates above are spent (see Diversity), so a budget larger than the excursions' onsets
+//! and peaks is spent on the excursions' least covered steps instead of being left unused.
 //!
 //! **Priority.** `priority = sum of the reasons' weights + 0.25 * min(novelty / threshold, 4) / 4`,
 //! with weights onset 1.0, before intervention 0.7, peak 0.4, action gap 0.3, inside an
@@ -92,6 +92,9 @@ pub struct PlanSettings {
     pub pool_factor: usize,
     /// Stop when the farthest candidate is within this scaled distance of a correction or pick.
     pub min_distance: f32,
+    /// Spend what the other candidates leave of the budget on filler candidates (flagged steps
+    /// inside excursions).
+    pub fill: bool,
     /// How excursions are found.
     pub excursion: ExcursionSettings,
 }
@@ -105,6 +108,7 @@ impl Default for PlanSettings {
             action_gap_min: 0.25,
             pool_factor: 8,
             min_distance: 0.0,
+            fill: true,
             excursion: ExcursionSettings::default(),
         }
     }
@@ -304,7 +308,7 @@ impl Planner {
             let next = cover.farthest_among(|i| fillers || !self.pool[i].is_filler());
             let distance = next.map_or(0.0, |i| cover.distance(i));
             let Some(i) = next.filter(|_| distance > self.settings.min_distance) else {
-                if fillers {
+                if fillers || !self.settings.fill {
                     break;
                 }
                 fillers = true;

@@ -13,8 +13,11 @@
 
 use super::features::{FEATURE_COUNT, Features};
 use super::policy::{Action, Observation, Policy};
-use super::ridge::Ridge;
-use crate::review::kcenter::greedy_k_center;
+use super::ridge::{Ridge, cholesky, cholesky_solve};
+use crate::review::kcenter::Cover;
+
+/// A bump smaller than this is treated as zero in the fit (about 6.4 widths from its centre).
+pub const BUMP_CUTOFF: f64 = 1e-9;
 
 /// A fitted radial basis function learner.
 #[derive(Debug, Clone, PartialEq)]
@@ -63,8 +66,16 @@ impl RbfLearner {
             .iter()
             .flat_map(|x| (0..FEATURE_COUNT).map(move |j| (x[j] * inv_scale[j]) as f32))
             .collect();
-        let (picks, radii) = greedy_k_center(&scaled, FEATURE_COUNT, &[], s.centres.max(1));
-        let radius = f64::from(radii.last().copied().unwrap_or(1.0)).max(1e-3);
+        let mut cover = Cover::new(&scaled, FEATURE_COUNT);
+        let mut picks = Vec::with_capacity(s.centres);
+        while picks.len() < s.centres.max(1) {
+            let Some(i) = cover.farthest() else { break };
+            cover.pick(i);
+            picks.push(i);
+        }
+        let radius = (0..cover.len())
+            .map(|i| f64::from(cover.distance(i)))
+            .fold(1e-3, f64::max);
         let h = radius * s.width_factor;
         let centres: Vec<Features> = picks
             .iter()
@@ -82,23 +93,48 @@ impl RbfLearner {
             },
         };
         let m = learner.centres.len();
-        let mut x = Vec::with_capacity(states.len() * m);
+        let w = |i: usize| weights.map_or(1.0, |w| w.get(i).copied().unwrap_or(0.0));
         let mut phi = vec![0.0; m];
-        for st in states {
+        let mut nz: Vec<usize> = Vec::with_capacity(m);
+        // Uncentred weighted sums, accumulated over the bumps that are not negligible
+        // (below BUMP_CUTOFF a bump is treated as zero, which keeps the sums sparse).
+        let (mut sxx, mut sx) = (vec![0.0; m * m], vec![0.0; m]);
+        let (mut sxy, mut sy, mut total) = (vec![0.0; m * 2], [0.0; 2], 0.0);
+        for (i, (st, a)) in states.iter().zip(actions).enumerate() {
+            let wi = w(i);
+            if wi <= 0.0 {
+                continue;
+            }
             learner.bumps(st, &mut phi);
-            x.extend_from_slice(&phi);
+            nz.clear();
+            nz.extend((0..m).filter(|&c| phi[c] > BUMP_CUTOFF));
+            let y = a.to_array();
+            total += wi;
+            for k in 0..2 {
+                sy[k] += wi * y[k];
+            }
+            for (p, &c) in nz.iter().enumerate() {
+                let wc = wi * phi[c];
+                sx[c] += wc;
+                sxy[c * 2] += wc * y[0];
+                sxy[c * 2 + 1] += wc * y[1];
+                let row = &mut sxx[c * m..(c + 1) * m];
+                for &d in &nz[p..] {
+                    row[d] += wc * phi[d];
+                }
+            }
         }
-        let y: Vec<f64> = actions.iter().flat_map(|a| a.to_array()).collect();
-        let total: f64 = weights.map_or(states.len() as f64, |w| w.iter().sum());
-        learner.model = Ridge::fit(&x, m, &y, 2, weights, s.lambda * total.max(1e-12))
-            .map_err(|e| e.to_string())?;
+        learner.model = solve(&sxx, &sx, &sxy, sy, total, m, s.lambda)?;
         Ok(learner)
     }
 
     fn bumps(&self, f: &Features, out: &mut [f64]) {
         let z: Features = std::array::from_fn(|j| f[j] * self.inv_scale[j]);
         for (o, c) in out.iter_mut().zip(&self.centres) {
-            let d2: f64 = z.iter().zip(c).map(|(a, b)| (a - b) * (a - b)).sum();
+            let mut d2 = 0.0;
+            for (a, b) in z.iter().zip(c) {
+                d2 += (a - b) * (a - b);
+            }
             *o = (-d2 * self.inv_two_h2).exp();
         }
     }
@@ -116,6 +152,47 @@ impl RbfLearner {
         self.model.predict(&phi, &mut out);
         Action::from_array(out).clipped()
     }
+}
+
+/// Ridge weights from uncentred weighted sums: the centred Gram matrix is
+/// `Sxx - Sx Sx' / W` (upper triangle given), the centred cross products `Sxy - Sx Sy' / W`,
+/// and the intercept `(Sy - Sx' B) / W` (Hoerl & Kennard 1970 on centred data, unpenalised
+/// intercept, as [`Ridge::fit`]); the penalty is `lambda W`.
+fn solve(
+    sxx: &[f64],
+    sx: &[f64],
+    sxy: &[f64],
+    sy: [f64; 2],
+    total: f64,
+    m: usize,
+    lambda: f64,
+) -> Result<Ridge, String> {
+    if total.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+        return Err("no row has a positive weight".into());
+    }
+    let mut gram = vec![0.0; m * m];
+    for a in 0..m {
+        for b in a..m {
+            let g = sxx[a * m + b] - sx[a] * sx[b] / total;
+            gram[a * m + b] = g;
+            gram[b * m + a] = g;
+        }
+        gram[a * m + a] += lambda * total;
+    }
+    let rhs: Vec<f64> = (0..m * 2)
+        .map(|i| sxy[i] - sx[i / 2] * sy[i % 2] / total)
+        .collect();
+    let l = cholesky(&gram, m).ok_or("the radial basis normal equations are singular")?;
+    let coef = cholesky_solve(&l, m, &rhs, 2);
+    let intercept = (0..2)
+        .map(|k| (sy[k] - (0..m).map(|c| sx[c] * coef[c * 2 + k]).sum::<f64>()) / total)
+        .collect();
+    Ok(Ridge {
+        inputs: m,
+        outputs: 2,
+        coef,
+        intercept,
+    })
 }
 
 impl Policy for RbfLearner {

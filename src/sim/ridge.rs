@@ -58,18 +58,34 @@ impl Ridge {
         let (mx, my) = (mean(x, inputs), mean(y, outputs));
         let mut gram = vec![0.0; inputs * inputs];
         let mut rhs = vec![0.0; inputs * outputs];
-        for i in 0..n {
-            let xi: Vec<f64> = (0..inputs).map(|j| x[i * inputs + j] - mx[j]).collect();
-            for a in 0..inputs {
-                for b in 0..inputs {
-                    gram[a * inputs + b] += w(i) * xi[a] * xi[b];
+        let (mut xi, mut yi) = (vec![0.0; inputs], vec![0.0; outputs]);
+        for (i, (xr, yr)) in x.chunks_exact(inputs).zip(y.chunks_exact(outputs)).enumerate() {
+            let wi = w(i);
+            if wi == 0.0 {
+                continue;
+            }
+            for ((o, v), m) in xi.iter_mut().zip(xr).zip(&mx) {
+                *o = v - m;
+            }
+            for ((o, v), m) in yi.iter_mut().zip(yr).zip(&my) {
+                *o = v - m;
+            }
+            // Upper triangle only (the Gram matrix is symmetric); mirrored below.
+            for (a, &xa) in xi.iter().enumerate() {
+                let wa = wi * xa;
+                let row = &mut gram[a * inputs + a..(a + 1) * inputs];
+                for (g, &xb) in row.iter_mut().zip(&xi[a..]) {
+                    *g += wa * xb;
                 }
-                for k in 0..outputs {
-                    rhs[a * outputs + k] += w(i) * xi[a] * (y[i * outputs + k] - my[k]);
+                for (r, &yk) in rhs[a * outputs..(a + 1) * outputs].iter_mut().zip(&yi) {
+                    *r += wa * yk;
                 }
             }
         }
         for a in 0..inputs {
+            for b in 0..a {
+                gram[a * inputs + b] = gram[b * inputs + a];
+            }
             gram[a * inputs + a] += lambda;
         }
         let l = cholesky(&gram, inputs).ok_or(RidgeError::Singular)?;

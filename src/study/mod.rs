@@ -101,7 +101,7 @@ impl Default for StudyConfig {
             budget: 300,
             bootstrap: 1000,
             strategies: Strategy::ALL.to_vec(),
-            learner: LearnerKind::Knn,
+            learner: LearnerKind::Rbf,
         }
     }
 }

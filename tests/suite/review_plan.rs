@@ -136,3 +136,51 @@ fn saved_scores_read_back_identically() {
         .to_string();
     assert!(err.contains("scores.npz") && err.contains("`t`"), "{err}");
 }
+
+#[test]
+fn fillers_spend_the_budget_only_after_the_other_candidates() {
+    let (steps, s) = scored();
+    let big = PlanSettings {
+        budget: 400,
+        min_gap: 3,
+        ..Default::default()
+    };
+    let without = plan(&steps, &s, &[], &PlanSettings { fill: false, ..big.clone() });
+    let with = plan(&steps, &s, &[], &big);
+    let filler = |e: &countersteer::review::ReviewEntry| e.reasons == [Reason::InsideExcursion];
+    assert!(without.entries.iter().all(|e| !filler(e)));
+    assert!(
+        with.entries.len() > without.entries.len() && with.entries.len() <= 400,
+        "{} then {}",
+        without.entries.len(),
+        with.entries.len()
+    );
+    // Every non-filler candidate is picked (or dropped by the gap) before the first filler:
+    // the first picks are exactly the list made without fillers.
+    let mut by_pick = with.entries.clone();
+    by_pick.sort_by_key(|e| e.pick);
+    let n = without.entries.len();
+    assert!(by_pick[..n].iter().all(|e| !filler(e)));
+    assert!(by_pick[n..].iter().all(filler));
+    let rows = |v: &[countersteer::review::ReviewEntry]| {
+        let mut r: Vec<usize> = v.iter().map(|e| e.row).collect();
+        r.sort_unstable();
+        r
+    };
+    assert_eq!(rows(&by_pick[..n]), rows(&without.entries));
+    // A filler is a flagged step (p-value at most alpha) strictly inside an excursion.
+    let ex = countersteer::review::excursions(&steps, &s, &big.excursion);
+    for e in by_pick[n..].iter() {
+        assert!(s.p_value[e.row] <= s.alpha as f32);
+        assert!(
+            ex.iter()
+                .any(|x| x.onset < e.row && e.row <= x.end && e.row != x.peak),
+            "row {}",
+            e.row
+        );
+    }
+    // Fillers too are picked farthest first: their distances never increase.
+    for w in by_pick[n..].windows(2) {
+        assert!(w[1].distance <= w[0].distance);
+    }
+}
