@@ -19,11 +19,11 @@ pub struct Cover<'a> {
 
 /// Euclidean distance.
 pub fn dist(a: &[f32], b: &[f32]) -> f32 {
-    a.iter()
-        .zip(b)
-        .map(|(x, y)| (x - y) * (x - y))
-        .sum::<f32>()
-        .sqrt()
+    let mut s = 0.0;
+    for (x, y) in a.iter().zip(b) {
+        s += (x - y) * (x - y);
+    }
+    s.sqrt()
 }
 
 impl<'a> Cover<'a> {

@@ -42,7 +42,7 @@ pub struct RbfSettings {
 impl Default for RbfSettings {
     fn default() -> Self {
         RbfSettings {
-            centres: 150,
+            centres: 100,
             lambda: 1e-4,
             width_factor: 1.0,
         }

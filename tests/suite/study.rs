@@ -4,7 +4,7 @@
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 
 use countersteer::progress::Progress;
-use countersteer::study::{ResultRow, Strategy, StudyConfig, run_study};
+use countersteer::study::{LearnerKind, ResultRow, Strategy, StudyConfig, run_study};
 
 fn last(rows: &[ResultRow], s: Strategy) -> &ResultRow {
     rows.iter()
@@ -13,31 +13,40 @@ fn last(rows: &[ResultRow], s: Strategy) -> &ResultRow {
         .unwrap()
 }
 
-/// Half-width of a 95 % bootstrap interval, floored at one episode's share: the margin
-/// within which two departure shares are not told apart at this evaluation size.
+/// Half-width of the 95 % interval of a difference of two departure shares: the root sum of
+/// squares of the two bootstrap half-widths (normal approximation for a difference of two
+/// independent means). Both learners are evaluated on the same episodes, whose outcomes are
+/// positively correlated, so the true interval of the difference is no wider: the margin is
+/// conservative. Floored at one episode's share.
 fn margin(a: &ResultRow, b: &ResultRow, episodes: usize) -> f64 {
     let hw = |r: &ResultRow| (r.departure.high - r.departure.low) / 2.0;
-    hw(a).max(hw(b)).max(1.0 / episodes as f64)
+    hw(a).hypot(hw(b)).max(1.0 / episodes as f64)
 }
 
+/// At this size (16 demonstration episodes, 2 rounds of 8 learner episodes, 40 evaluation
+/// episodes) the claims below held on seeds 11 to 15 (measured in release, see README); with
+/// 10 demonstration episodes the learner fit on them is too poor (90 % departures) and the
+/// review list stayed behind full DAgger beyond the margin on seeds 11 and 15.
 #[test]
 fn review_list_recovers_like_full_dagger_with_a_fraction_of_the_labels() {
     let dir = tempfile::tempdir().unwrap();
     let cfg = StudyConfig {
         rounds: 2,
-        demo_episodes: 10,
+        demo_episodes: 16,
         train_episodes: 8,
         eval_episodes: 40,
         budget: 100,
         bootstrap: 400,
         ..StudyConfig::default()
     };
+    assert_eq!(cfg.learner, LearnerKind::Rbf);
     let rows = run_study(&cfg, dir.path(), &Progress::new()).unwrap();
     assert_eq!(rows.len(), 5 * 3, "five strategies, rounds 0..=2");
-    let (rl, dagger, random) = (
+    let (rl, dagger, random, novelty) = (
         last(&rows, Strategy::ReviewList),
         last(&rows, Strategy::DaggerAll),
         last(&rows, Strategy::Random),
+        last(&rows, Strategy::TopNovelty),
     );
     let first = rows.iter().find(|r| r.round == 0).unwrap();
     eprintln!("{rows:#?}");
@@ -49,21 +58,24 @@ fn review_list_recovers_like_full_dagger_with_a_fraction_of_the_labels() {
         dagger.labels
     );
     assert!(rl.labels <= cfg.rounds * cfg.budget);
-    // Random selection is run at exactly the review list's spend.
+    // Random and top-novelty selection spend exactly what the review list spent.
     assert_eq!(random.labels, rl.labels);
+    assert_eq!(novelty.labels, rl.labels);
     // Lane departures after the last round: no worse than full DAgger beyond the margin.
     let m = margin(rl, dagger, cfg.eval_episodes);
     assert!(
         rl.departure.mean <= dagger.departure.mean + m,
         "{rl:?} vs {dagger:?}"
     );
-    // Against random at the same spend the data support "no worse" (see README: at this
-    // size both reach zero departures; the review list's lower cost is within noise).
-    let m = margin(rl, random, cfg.eval_episodes);
-    assert!(
-        rl.departure.mean <= random.departure.mean + m,
-        "{rl:?} vs {random:?}"
-    );
+    // Better than random and than top-novelty selection at the same spend, by more than
+    // the margin.
+    for other in [random, novelty] {
+        let m = margin(rl, other, cfg.eval_episodes);
+        assert!(
+            rl.departure.mean + m < other.departure.mean,
+            "{rl:?} vs {other:?}"
+        );
+    }
     // Aggregation helped at all: the review list's learner improved on the first learner.
     assert!(rl.cost.mean < first.cost.mean, "{rl:?} vs {first:?}");
     // Every strategy's merged set went through the export and came back.
