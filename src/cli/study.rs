@@ -37,6 +37,10 @@ pub struct StudyArgs {
     /// The learner refit after every round: ridge, knn or rbf.
     #[arg(long, default_value = "rbf")]
     pub learner: String,
+    /// Steering noise injected while the expert drives demonstrations (rad); the labels
+    /// stay the expert's clean commands.
+    #[arg(long, default_value_t = crate::sim::DemoConfig::default().demo_steer_noise)]
+    pub demo_noise: f64,
 }
 
 /// Runs `study`.
@@ -47,8 +51,15 @@ pub fn run(a: StudyArgs) -> Result<(), CliError> {
             a.learner
         ))
     })?;
+    if !(a.demo_noise.is_finite() && a.demo_noise >= 0.0) {
+        return Err(CliError::usage(format!(
+            "--demo-noise {}: expected a finite value of at least 0",
+            a.demo_noise
+        )));
+    }
     let cfg = StudyConfig {
         learner,
+        demo_steer_noise: a.demo_noise,
         seed: a.seed,
         rounds: a.rounds.max(1),
         demo_episodes: a.demo_episodes.max(2),

@@ -59,7 +59,11 @@ impl RbfLearner {
         s: &RbfSettings,
     ) -> Result<RbfLearner, String> {
         if states.len() != actions.len() || states.is_empty() {
-            return Err(format!("{} states, {} actions", states.len(), actions.len()));
+            return Err(format!(
+                "{} states, {} actions",
+                states.len(),
+                actions.len()
+            ));
         }
         let inv_scale: Features = std::array::from_fn(|j| 1.0 / scale[j]);
         let scaled: Vec<f32> = states
@@ -198,5 +202,50 @@ fn solve(
 impl Policy for RbfLearner {
     fn act(&self, obs: &Observation<'_>) -> Action {
         self.predict(obs.features)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn at(x: f64) -> Features {
+        let mut f = [0.0; FEATURE_COUNT];
+        f[0] = x;
+        f
+    }
+
+    /// Three states at 0, 1 and 2 (scale 1), two centres: k-center picks 0 (first), then 2
+    /// (farthest); the covering radius is 1 (the state at 1), so h = 1 and
+    /// phi_0(x) = exp(-x^2 / 2), phi_2(x) = exp(-(x - 2)^2 / 2). Three rows and three
+    /// parameters (intercept and two weights): with no penalty the fit interpolates. For
+    /// steering 0, 0.02, 0 symmetry gives equal weights c, and solving by hand
+    /// c (1 + e^-2) + b = 0, 2 c e^-1/2 + b = 0.02 gives c = 0.02 / (2 e^-1/2 - 1 - e^-2)
+    /// and b = -c (1 + e^-2). Far from both centres every bump vanishes: the action is b.
+    #[test]
+    fn three_points_two_bumps_interpolate_and_fall_back_to_the_intercept() {
+        let states = [at(0.0), at(1.0), at(2.0)];
+        let actions: Vec<Action> = [0.0, 0.02, 0.0]
+            .iter()
+            .map(|&s| Action {
+                steer: s,
+                accel: 0.1,
+            })
+            .collect();
+        let settings = RbfSettings {
+            centres: 2,
+            lambda: 1e-12,
+            width_factor: 1.0,
+        };
+        let l = RbfLearner::fit(&states, &actions, None, &[1.0; FEATURE_COUNT], &settings).unwrap();
+        assert_eq!(l.centres(), 2);
+        for (s, a) in states.iter().zip(&actions) {
+            assert!((l.predict(s).steer - a.steer).abs() < 1e-6);
+            assert!((l.predict(s).accel - 0.1).abs() < 1e-6);
+        }
+        let e = std::f64::consts::E;
+        let c = 0.02 / (2.0 / e.sqrt() - 1.0 - e.powi(-2));
+        let b = -c * (1.0 + e.powi(-2));
+        assert!((l.predict(&at(60.0)).steer - b).abs() < 1e-6, "{b}");
     }
 }

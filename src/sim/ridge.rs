@@ -59,7 +59,11 @@ impl Ridge {
         let mut gram = vec![0.0; inputs * inputs];
         let mut rhs = vec![0.0; inputs * outputs];
         let (mut xi, mut yi) = (vec![0.0; inputs], vec![0.0; outputs]);
-        for (i, (xr, yr)) in x.chunks_exact(inputs).zip(y.chunks_exact(outputs)).enumerate() {
+        for (i, (xr, yr)) in x
+            .chunks_exact(inputs)
+            .zip(y.chunks_exact(outputs))
+            .enumerate()
+        {
             let wi = w(i);
             if wi == 0.0 {
                 continue;

@@ -22,14 +22,19 @@ use crate::sim::{Action, DemoConfig, Drivers, EpisodeRun, RolloutConfig, demo_sp
 /// The annotator name under which the scripted expert's labels are written.
 pub const SCRIPTED_EXPERT: &str = "scripted-expert";
 
-/// Expert episodes of one set.
+/// Expert episodes of one set, driven as the demo scenario's demonstrations are (with its
+/// demonstration steering noise; the recorded actions are the expert's clean commands).
 pub fn expert_runs(cfg: &DemoConfig, set: u64, progress: &Progress) -> Vec<EpisodeRun> {
     let drivers = Drivers {
         policy: &cfg.expert,
         expert: &cfg.expert,
         ensemble: None,
     };
-    run_set(cfg, set, &drivers, &cfg.rollout, progress)
+    let noisy = RolloutConfig {
+        steer_noise: cfg.demo_steer_noise,
+        ..cfg.rollout.clone()
+    };
+    run_set(cfg, set, &drivers, &noisy, progress)
 }
 
 /// Learner episodes of one set.
@@ -220,10 +225,6 @@ impl StrategyRun {
                     ..PlanSettings::default()
                 };
                 let l = plan(steps, &scores, &self.corrected, &settings);
-                if std::env::var_os("STUDY_DEBUG").is_some() {
-                    let ex = crate::review::excursions::excursions(steps, &scores, &settings.excursion);
-                    eprintln!("round {r}: n {n} flagged {} excursions {} candidates {} pool {} entries {} radius {}", scores.flagged_count(), ex.len(), l.candidates, l.pool, l.entries.len(), l.covering_radius);
-                }
                 l.entries.iter().map(|e| e.row).collect()
             }
         })

@@ -88,6 +88,9 @@ pub struct StudyConfig {
     pub strategies: Vec<Strategy>,
     /// The learner refit after every round.
     pub learner: LearnerKind,
+    /// Steering noise injected while the expert drives demonstrations (rad; DART, see
+    /// [`DemoConfig::demo_steer_noise`]).
+    pub demo_steer_noise: f64,
 }
 
 impl Default for StudyConfig {
@@ -102,6 +105,7 @@ impl Default for StudyConfig {
             bootstrap: 1000,
             strategies: Strategy::ALL.to_vec(),
             learner: LearnerKind::Rbf,
+            demo_steer_noise: DemoConfig::default().demo_steer_noise,
         }
     }
 }
@@ -162,6 +166,7 @@ fn sim_config(cfg: &StudyConfig, episodes: usize) -> DemoConfig {
         seed: cfg.seed,
         episodes,
         frame_episodes: 0,
+        demo_steer_noise: cfg.demo_steer_noise,
         ..DemoConfig::default()
     }
 }

@@ -145,7 +145,15 @@ fn fillers_spend_the_budget_only_after_the_other_candidates() {
         min_gap: 3,
         ..Default::default()
     };
-    let without = plan(&steps, &s, &[], &PlanSettings { fill: false, ..big.clone() });
+    let without = plan(
+        &steps,
+        &s,
+        &[],
+        &PlanSettings {
+            fill: false,
+            ..big.clone()
+        },
+    );
     let with = plan(&steps, &s, &[], &big);
     let filler = |e: &countersteer::review::ReviewEntry| e.reasons == [Reason::InsideExcursion];
     assert!(without.entries.iter().all(|e| !filler(e)));
