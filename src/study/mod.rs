@@ -14,8 +14,13 @@
 //! * `dagger-all`: every state the learner visited is labelled;
 //! * `random`: uniformly random visited states, as many per round as the review list used
 //!   (the full budget when the review list is not run);
-//! * `top-novelty`: the most novel visited states, no diversity;
+//! * `top-novelty`: the most novel visited states, no diversity, as many per round as the
+//!   review list used (the full budget when the review list is not run);
 //! * `review-list`: the countersteer review list.
+//!
+//! The learner refit after every round is a setting ([`LearnerKind`]); the default, a radial
+//! basis function network, has local capacity: it is right near its training states and falls
+//! back to its mean action elsewhere, which is what labelling for coverage is meant to fix.
 
 pub mod chain;
 mod label;
@@ -183,8 +188,8 @@ pub fn run_study(
     let eval_cfg = sim_config(cfg, cfg.eval_episodes);
     let first = evaluate(cfg, &eval_cfg, &learner0, progress);
     let mut rows = Vec::new();
-    // The review list runs first: random selection then spends exactly what it spent in each
-    // round, so the two are compared at the same number of labels.
+    // The review list runs first: random and top-novelty selection then spend exactly what it
+    // spent in each round, so the three are compared at the same number of labels.
     let mut order = cfg.strategies.clone();
     order.sort_by_key(|&s| s != Strategy::ReviewList);
     let mut review_spend: Vec<usize> = Vec::new();
