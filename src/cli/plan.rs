@@ -37,6 +37,10 @@ pub struct PlanArgs {
     /// Score the round again even when saved scores exist.
     #[arg(long)]
     pub rescore: bool,
+    /// Leave the budget unspent once the onsets, peaks, steps before interventions and large
+    /// action gaps are chosen, instead of filling it with the excursions' other flagged steps.
+    #[arg(long)]
+    pub no_fill: bool,
 }
 
 fn scores_for(c: &Campaign, a: &PlanArgs, steps: &StepTable) -> Result<RoundScores, CliError> {
@@ -77,6 +81,7 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         min_gap: a.min_gap,
         pre_intervention: a.before_intervention,
         action_gap_min: a.action_gap,
+        fill: !a.no_fill,
         ..Default::default()
     };
     let judged = judged_rows(&c, a.round, steps)?;
