@@ -12,6 +12,7 @@ pub mod error;
 pub mod folder;
 pub mod frame;
 pub mod jsonl;
+pub mod npz;
 pub mod numpy;
 pub mod spec;
 pub mod steps;

@@ -19,6 +19,7 @@ pub use header::{MAX_HEADER_BYTES, MAX_HEADER_NESTING, declared_shape};
 
 use super::accept::{RowMeta, accept};
 use super::error::{Location, ProblemKind, ProblemLog};
+use super::npz;
 use super::steps::StepTableBuilder;
 use super::validate::{RawValue, RowChecker, resolve_frame};
 use crate::progress::Progress;
@@ -201,53 +202,56 @@ pub trait ArraySource {
 }
 
 /// Arrays of an `.npz` archive (a file by default; any seekable reader for tests and fuzzing).
-pub struct NpzSource<R: Read + Seek = BufReader<File>>(npyz::npz::NpzArchive<R>);
+pub struct NpzSource<R: Read + Seek = BufReader<File>>(zip::ZipArchive<R>);
 
 impl NpzSource {
     /// Opens an archive.
     pub fn open(path: &Path) -> Result<Self, String> {
-        npyz::npz::NpzArchive::open(path)
-            .map(NpzSource)
-            .map_err(|e| format!("not a readable .npz archive: {e}"))
+        let file = File::open(path).map_err(|e| format!("not a readable .npz archive: {e}"))?;
+        NpzSource::new(BufReader::new(file))
     }
 }
 
 impl<R: Read + Seek> NpzSource<R> {
     /// Reads an archive from any seekable reader.
     pub fn new(r: R) -> Result<Self, String> {
-        npyz::npz::NpzArchive::new(r)
+        zip::ZipArchive::new(r)
             .map(NpzSource)
             .map_err(|e| format!("not a readable .npz archive: {e}"))
     }
 
     /// Names of the arrays in the archive.
     pub fn names(&self) -> Vec<String> {
-        self.0.array_names().map(str::to_string).collect()
+        self.0
+            .file_names()
+            .filter_map(npz::array_name)
+            .map(str::to_string)
+            .collect()
     }
 }
 
 impl<R: Read + Seek> ArraySource for NpzSource<R> {
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
-        let member = npyz::npz::file_name_from_array_name(name);
-        match self.0.zip_archive().by_name(&member) {
+        let member = npz::member_name(name);
+        match self.0.by_name(&member) {
             Ok(f) => {
                 let size = f.size();
                 read_array(f, size)
                     .map(Some)
                     .map_err(|e| format!("member `{member}`: {e}"))
             }
-            Err(npyz::zip::result::ZipError::FileNotFound) => Ok(None),
+            Err(zip::result::ZipError::FileNotFound) => Ok(None),
             Err(e) => Err(format!("member `{member}`: {e}")),
         }
     }
 
     fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String> {
-        let member = npyz::npz::file_name_from_array_name(name);
-        match self.0.zip_archive().by_name(&member) {
+        let member = npz::member_name(name);
+        match self.0.by_name(&member) {
             Ok(f) => declared_shape(f)
                 .map(Some)
                 .map_err(|e| format!("member `{member}`: {e}")),
-            Err(npyz::zip::result::ZipError::FileNotFound) => Ok(None),
+            Err(zip::result::ZipError::FileNotFound) => Ok(None),
             Err(e) => Err(format!("member `{member}`: {e}")),
         }
     }

@@ -6,6 +6,7 @@ use std::io::{self, Write};
 
 use serde_json::{Map, Value, json};
 
+use super::npz::NpzWriter;
 use super::spec::{ChannelKind, Spec};
 use super::steps::StepTable;
 
@@ -115,73 +116,31 @@ pub fn write_csv<W: Write>(t: &StepTable, spec: &Spec, data_dir: &str, w: W) -> 
 /// Writes a table as `.npz` (states/actions float32, episode as strings, t int64,
 /// intervention bool when present). Frames and samples are left out.
 pub fn write_npz<W: Write + io::Seek>(t: &StepTable, w: W) -> io::Result<()> {
-    use npyz::WriterBuilder;
-    let mut npz = npyz::npz::NpzWriter::new(w);
-    let opts = || {
-        npyz::zip::write::FileOptions::default()
-            .compression_method(npyz::zip::CompressionMethod::Stored)
-            .last_modified_time(npyz::zip::DateTime::default())
-    };
+    let mut npz = NpzWriter::new(w);
     let n = t.len() as u64;
-    let mut arr = npz
-        .array::<f32>("states", opts())?
-        .default_dtype()
-        .shape(&[n, t.state_dim as u64])
-        .begin_nd()?;
-    arr.extend(t.states.iter().copied())?;
-    arr.finish()?;
-    let mut arr = npz
-        .array::<f32>("actions", opts())?
-        .default_dtype()
-        .shape(&[n, t.action_dim as u64])
-        .begin_nd()?;
-    arr.extend(t.actions.iter().copied())?;
-    arr.finish()?;
-    write_episode_names(&mut npz, t, opts())?;
-    let mut arr = npz
-        .array::<i64>("t", opts())?
-        .default_dtype()
-        .shape(&[n])
-        .begin_nd()?;
-    arr.extend(t.t.iter().copied())?;
-    arr.finish()?;
+    npz.numbers("states", &[n, t.state_dim as u64], t.states.iter().copied())?;
+    npz.numbers(
+        "actions",
+        &[n, t.action_dim as u64],
+        t.actions.iter().copied(),
+    )?;
+    write_episode_names(&mut npz, t)?;
+    npz.numbers("t", &[n], t.t.iter().copied())?;
     if !t.interventions.is_empty() {
-        let mut arr = npz
-            .array::<bool>("intervention", opts())?
-            .default_dtype()
-            .shape(&[n])
-            .begin_nd()?;
-        arr.extend(t.interventions.iter().copied())?;
-        arr.finish()?;
+        npz.numbers("intervention", &[n], t.interventions.iter().copied())?;
     }
-    Ok(())
+    npz.finish().map(drop)
 }
 
 /// Writes the `episode` array of an `.npz`: each row's episode name, as a numpy unicode
 /// array (`<U{longest}`), which `numpy.load` reads without pickle.
 pub fn write_episode_names<W: Write + io::Seek>(
-    npz: &mut npyz::npz::NpzWriter<W>,
+    npz: &mut NpzWriter<W>,
     t: &StepTable,
-    opts: npyz::zip::write::FileOptions,
 ) -> io::Result<()> {
-    use npyz::WriterBuilder;
     let names = t
         .episodes
         .iter()
         .flat_map(|e| std::iter::repeat_n(e.name.as_str(), e.len));
-    let width = t
-        .episodes
-        .iter()
-        .map(|e| e.name.chars().count())
-        .max()
-        .unwrap_or(1)
-        .max(1);
-    let dtype = npyz::DType::Plain(format!("<U{width}").parse().map_err(io::Error::other)?);
-    let mut arr = npz
-        .array::<String>("episode", opts)?
-        .dtype(dtype)
-        .shape(&[t.len() as u64])
-        .begin_nd()?;
-    arr.extend(names.map(str::to_string))?;
-    arr.finish()
+    npz.strings("episode", names)
 }

@@ -15,6 +15,7 @@ use std::io::{self, Seek, Write};
 use serde::Serialize;
 
 use super::rows::MergedSet;
+use crate::campaign::npz::NpzWriter;
 use crate::campaign::{ChannelKind, Spec};
 use crate::progress::Progress;
 
@@ -127,13 +128,7 @@ pub fn write_csv<W: Write>(m: &MergedSet, spec: &Spec, w: W, p: &Progress) -> io
     out.flush()
 }
 
-type Npz<W> = npyz::npz::NpzWriter<W>;
-
-fn opts() -> npyz::zip::write::FileOptions {
-    npyz::zip::write::FileOptions::default()
-        .compression_method(npyz::zip::CompressionMethod::Stored)
-        .last_modified_time(npyz::zip::DateTime::default())
-}
+type Npz<W> = NpzWriter<W>;
 
 fn numbers<W: Write + Seek, T: npyz::AutoSerialize + Copy>(
     npz: &mut Npz<W>,
@@ -141,39 +136,18 @@ fn numbers<W: Write + Seek, T: npyz::AutoSerialize + Copy>(
     shape: &[u64],
     values: impl Iterator<Item = T>,
 ) -> io::Result<()> {
-    use npyz::WriterBuilder;
-    let mut arr = npz
-        .array::<T>(name, opts())?
-        .default_dtype()
-        .shape(shape)
-        .begin_nd()?;
-    arr.extend(values)?;
-    arr.finish()
+    npz.numbers(name, shape, values)
 }
 
 fn strings<W: Write + Seek>(npz: &mut Npz<W>, name: &str, values: &[String]) -> io::Result<()> {
-    use npyz::WriterBuilder;
-    let width = values
-        .iter()
-        .map(|s| s.chars().count())
-        .max()
-        .unwrap_or(1)
-        .max(1);
-    let dtype = npyz::DType::Plain(format!("<U{width}").parse().map_err(io::Error::other)?);
-    let mut arr = npz
-        .array::<String>(name, opts())?
-        .dtype(dtype)
-        .shape(&[values.len() as u64])
-        .begin_nd()?;
-    arr.extend(values.iter().cloned())?;
-    arr.finish()
+    npz.strings(name, values.iter().map(String::as_str))
 }
 
 /// Writes the set as an uncompressed `.npz` archive.
 pub fn write_npz<W: Write + Seek>(m: &MergedSet, w: W, p: &Progress) -> io::Result<()> {
     let n = m.len() as u64;
     let (d, a) = (m.state_names.len() as u64, m.action_names.len() as u64);
-    let mut npz = npyz::npz::NpzWriter::new(w);
+    let mut npz = NpzWriter::new(w);
     numbers(&mut npz, "states", &[n, d], m.states.iter().copied())?;
     checkpoint(p, n / 3)?;
     numbers(&mut npz, "actions", &[n, a], m.actions.iter().copied())?;
@@ -196,5 +170,5 @@ pub fn write_npz<W: Write + Seek>(m: &MergedSet, w: W, p: &Progress) -> io::Resu
     strings(&mut npz, "state_names", &m.state_names)?;
     strings(&mut npz, "action_names", &m.action_names)?;
     checkpoint(p, n / 3)?;
-    Ok(())
+    npz.finish().map(drop)
 }

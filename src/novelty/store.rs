@@ -28,7 +28,7 @@ use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-use npyz::WriterBuilder;
+use crate::campaign::npz::NpzWriter;
 
 use super::NoveltyError;
 use super::score::RoundScores;
@@ -85,25 +85,13 @@ pub fn save_scores(
     Ok(path)
 }
 
-fn opts() -> npyz::zip::write::FileOptions {
-    npyz::zip::write::FileOptions::default()
-        .compression_method(npyz::zip::CompressionMethod::Stored)
-        .last_modified_time(npyz::zip::DateTime::default())
-}
-
-fn put<T: npyz::Serialize + npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(
-    npz: &mut npyz::npz::NpzWriter<W>,
+fn put<T: npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(
+    npz: &mut NpzWriter<W>,
     name: &str,
     shape: &[u64],
     values: &[T],
 ) -> std::io::Result<()> {
-    let mut arr = npz
-        .array::<T>(name, opts())?
-        .default_dtype()
-        .shape(shape)
-        .begin_nd()?;
-    arr.extend(values.iter().copied())?;
-    arr.finish()
+    npz.numbers(name, shape, values.iter().copied())
 }
 
 /// Writes the scores archive (see the module documentation) to any seekable writer.
@@ -112,9 +100,9 @@ pub fn write_npz<W: Write + std::io::Seek>(
     s: &RoundScores,
     w: W,
 ) -> std::io::Result<()> {
-    let mut npz = npyz::npz::NpzWriter::new(w);
+    let mut npz = NpzWriter::new(w);
     let n = s.len() as u64;
-    crate::campaign::write::write_episode_names(&mut npz, steps, opts())?;
+    crate::campaign::write::write_episode_names(&mut npz, steps)?;
     put(&mut npz, "t", &[n], &steps.t)?;
     put(&mut npz, "novelty", &[n], &s.novelty)?;
     put(&mut npz, "p_value", &[n], &s.p_value)?;
@@ -138,7 +126,7 @@ pub fn write_npz<W: Write + std::io::Seek>(
     put(&mut npz, "threshold", &[1], &[s.threshold])?;
     put(&mut npz, "alpha", &[1], &[s.alpha])?;
     put(&mut npz, "scale", &[s.state_dim as u64], &s.scale)?;
-    Ok(())
+    npz.finish().map(drop)
 }
 
 struct Reader {
