@@ -17,15 +17,19 @@ done
 case " ${COUNTERSTEER_FUZZ_INSTRUMENT:-} " in
   *" $crate "*)
     if [ -n "$crate" ]; then
-      exec "$rustc" "$@" \
-        -Cpasses=sancov-module \
-        -Cllvm-args=-sanitizer-coverage-level=4 \
-        -Cllvm-args=-sanitizer-coverage-inline-8bit-counters \
-        -Cllvm-args=-sanitizer-coverage-pc-table \
-        -Cllvm-args=-sanitizer-coverage-trace-compares \
-        -Cllvm-args=-simplifycfg-branch-fold-threshold=0 \
-        -Cllvm-args=-sanitizer-coverage-stack-depth \
+      flags=(
+        -Cpasses=sancov-module
+        -Cllvm-args=-sanitizer-coverage-level=4
+        -Cllvm-args=-sanitizer-coverage-inline-8bit-counters
+        -Cllvm-args=-sanitizer-coverage-pc-table
+        -Cllvm-args=-sanitizer-coverage-trace-compares
+        -Cllvm-args=-simplifycfg-branch-fold-threshold=0
         --cfg fuzzing
+      )
+      if [ "$(uname -s)" = Linux ]; then
+        flags+=(-Cllvm-args=-sanitizer-coverage-stack-depth)
+      fi
+      exec "$rustc" "$@" "${flags[@]}"
     fi
     ;;
 esac
