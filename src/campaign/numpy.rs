@@ -77,6 +77,13 @@ pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
             "strings of {item} bytes each; names and paths may take at most {MAX_TEXT_BYTES}"
         ));
     }
+    // Found by fuzzing: a zero-width type (`<U0`) passes the size check below with any
+    // count, and reading 10^16 empty strings exhausted memory.
+    if item == 0 && count > 0 {
+        return Err(format!(
+            "header declares {count} values of 0 bytes each; a zero-width type holds no data"
+        ));
+    }
     if count.saturating_mul(item) > available {
         return Err(format!(
             "header declares {count} values of {item} bytes but only {available} bytes follow"
