@@ -12,6 +12,7 @@
 //! * W3: D = 64, 200k demonstrations, 100k steps: the principal-subspace path, with its
 //!   accuracy against brute force.
 //! * plan: a 500-step review list from 1M scored steps; baseline: k-center over every candidate.
+//! * w1parts (only when asked for by name): W1 stage by stage, to see where the time goes.
 //!
 //! Timings are medians of `--runs` runs. Peak memory is the process's resident high-water
 //! mark (reset per stage through /proc/self/clear_refs on Linux).
@@ -202,6 +203,53 @@ fn w1(a: &Args) {
     println!(
         "peak memory above start     {:8.1} MB (raw f32 states {raw:.1} MB)",
         mb(peak)
+    );
+}
+
+/// W1 stage by stage (only with `--only w1parts`): where the end-to-end time goes.
+fn w1_parts(a: &Args) {
+    use countersteer::novelty::model::split_episodes;
+    println!("\n== W1 stage by stage (medians of {} runs)", a.runs);
+    let demos = trajectories(&SynthSpec::expert(2000, 500, 16, 1));
+    let steps = rollouts(200, 16, 2);
+    let channels = spec(16, 2).actions;
+    let p = Progress::new();
+    let inv: Vec<f32> = scales(&demos).iter().map(|s| 1.0 / s).collect();
+    let split = split_episodes(&demos).expect("split");
+    let fit_rows: Vec<u32> = split
+        .fit
+        .iter()
+        .flat_map(|&e| demos.episodes[e].rows().map(|r| r as u32))
+        .collect();
+    let cal: Vec<usize> = split
+        .calibration
+        .iter()
+        .flat_map(|&e| demos.episodes[e].rows().step_by(10))
+        .collect();
+    let all: Vec<u32> = (0..demos.len() as u32).collect();
+    let rows = all_rows(&steps);
+    let mut t: Vec<[f64; 6]> = Vec::new();
+    for _ in 0..a.runs {
+        let (fit, t0) = time(|| KnnIndex::build(&demos.states, 16, &inv, &fit_rows).expect("fit"));
+        let (_c, t1) = time(|| knn_rows(&fit, &inv, &demos, &cal, K, true, "", &p));
+        drop(fit);
+        let (full, t2) = time(|| KnnIndex::build(&demos.states, 16, &inv, &all).expect("full"));
+        let (_h, t3) = time(|| knn_rows(&full, &inv, &steps, &rows, K, true, "", &p));
+        let (model, t4) =
+            time(|| build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model"));
+        let (_s, t5) = time(|| score_steps(&model, &demos, &channels, &steps, &p).expect("score"));
+        t.push([t0, t1, t2, t3, t4, t5]);
+    }
+    let m = |i: usize| median(t.iter().map(|r| r[i]).collect());
+    println!("fit index ({} rows)        {:8.3} s", fit_rows.len(), m(0));
+    println!("calibration ({} queries)  {:8.3} s", cal.len(), m(1));
+    println!("scoring index (1M)          {:8.3} s", m(2));
+    println!("seeded k-NN, 100k steps     {:8.3} s", m(3));
+    println!("build_model_from            {:8.3} s", m(4));
+    println!(
+        "score_steps                 {:8.3} s  (signals {:.3} s)",
+        m(5),
+        m(5) - m(3)
     );
 }
 
@@ -396,6 +444,9 @@ fn main() {
     );
     if want("w1") {
         w1(&a);
+    }
+    if a.only.iter().any(|o| o == "w1parts") {
+        w1_parts(&a);
     }
     if want("w2") {
         w2(&a);

@@ -13,7 +13,6 @@
 
 use std::num::NonZeroUsize;
 
-use kiddo::ImmutableKdTree;
 use kiddo::dist::SquaredEuclidean;
 
 use super::subspace::{Subspace, components_for, principal_axes};
@@ -35,7 +34,19 @@ pub trait TreeBackend: Send + Sync {
     fn within(&self, q: &[f32], r2: f32, out: &mut Vec<Hit>);
 }
 
-struct Tree<const K: usize>(ImmutableKdTree<f32, K>);
+/// Points per leaf of the 8-wide trees (kiddo's default, used for every other width, is 32).
+/// Measured with `bench --only w1parts,w2` on smooth trajectory data: the subspace path's
+/// 8-wide tree scored W1's 100k steps in 1.47 s with 32 points per leaf, 1.40 s with 64,
+/// 1.79 s with 128 and 1.67 s with 16; a plain 16-wide tree answered W2's queries at 24,500/s
+/// with 32 and 20,200/s with 64.
+pub const LEAF_POINTS_8: usize = 64;
+
+/// kiddo's immutable tree layout (Eytzinger stems, arena leaves) with `B` points per leaf:
+/// `kiddo::ImmutableKdTree` is this type with 32.
+type Layout<const K: usize, const B: usize> =
+    kiddo::KdTree<f32, u32, kiddo::Eytzinger, kiddo::VecOfArenas<f32, u32, K, B>, K, B>;
+
+struct Tree<const K: usize, const B: usize>(Layout<K, B>);
 
 fn pad<const K: usize>(q: &[f32]) -> [f32; K] {
     let mut p = [0.0; K];
@@ -43,7 +54,7 @@ fn pad<const K: usize>(q: &[f32]) -> [f32; K] {
     p
 }
 
-impl<const K: usize> TreeBackend for Tree<K> {
+impl<const K: usize, const B: usize> TreeBackend for Tree<K, B> {
     fn knn(&self, q: &[f32], k: usize, bound2: f32, out: &mut Vec<Hit>) {
         out.clear();
         let Some(k) = NonZeroUsize::new(k) else {
@@ -73,26 +84,55 @@ impl<const K: usize> TreeBackend for Tree<K> {
 }
 
 /// Builds a tree over `rows` (demonstration row ids, which become the items) whose coordinate
-/// `j < dim` is `axis(row, j)`; `dim` must not exceed [`MAX_TREE_DIM`].
+/// `j < dim` is `axis(row, j)`; `dim` must not exceed [`MAX_TREE_DIM`]. 8-wide trees hold
+/// [`LEAF_POINTS_8`] points per leaf, the others 32.
 pub fn build_tree<F>(dim: usize, rows: &[u32], axis: F) -> Result<Box<dyn TreeBackend>, String>
 where
     F: Fn(u32, usize) -> f32 + Sync,
 {
-    fn make<const K: usize, F: Fn(u32, usize) -> f32 + Sync>(
+    if tree_width(dim) == 8 {
+        build_tree_leaves::<LEAF_POINTS_8, F>(dim, rows, axis)
+    } else {
+        build_tree_leaves::<32, F>(dim, rows, axis)
+    }
+}
+
+/// Like [`build_tree`] with kiddo's default 32 points per leaf (`kiddo::ImmutableKdTree`):
+/// the benchmark's plain baseline.
+pub fn build_default_tree<F>(
+    dim: usize,
+    rows: &[u32],
+    axis: F,
+) -> Result<Box<dyn TreeBackend>, String>
+where
+    F: Fn(u32, usize) -> f32 + Sync,
+{
+    build_tree_leaves::<32, F>(dim, rows, axis)
+}
+
+fn build_tree_leaves<const B: usize, F>(
+    dim: usize,
+    rows: &[u32],
+    axis: F,
+) -> Result<Box<dyn TreeBackend>, String>
+where
+    F: Fn(u32, usize) -> f32 + Sync,
+{
+    fn make<const K: usize, const B: usize, F: Fn(u32, usize) -> f32 + Sync>(
         dim: usize,
         rows: &[u32],
         axis: F,
     ) -> Result<Box<dyn TreeBackend>, String> {
         let at = |&r: &u32, j: usize| if j < dim { axis(r, j) } else { 0.0 };
-        let tree = ImmutableKdTree::<f32, K>::new_from_source(rows, at, |_, &r| r)
-            .map_err(|e| e.to_string())?;
+        let tree =
+            Layout::<K, B>::new_from_source(rows, at, |_, &r| r).map_err(|e| e.to_string())?;
         Ok(Box::new(Tree(tree)))
     }
     match dim {
-        0..=4 => make::<4, F>(dim, rows, axis),
-        5..=8 => make::<8, F>(dim, rows, axis),
-        9..=16 => make::<16, F>(dim, rows, axis),
-        17..=32 => make::<32, F>(dim, rows, axis),
+        0..=4 => make::<4, B, F>(dim, rows, axis),
+        5..=8 => make::<8, B, F>(dim, rows, axis),
+        9..=16 => make::<16, B, F>(dim, rows, axis),
+        17..=32 => make::<32, B, F>(dim, rows, axis),
         _ => Err(format!(
             "a plain tree holds at most {MAX_TREE_DIM} dimensions, not {dim}"
         )),
@@ -187,7 +227,7 @@ impl KnnIndex {
         Ok(KnnIndex {
             dim,
             len: rows.len(),
-            kind: Kind::Tree(build_tree(dim, rows, axis)?),
+            kind: Kind::Tree(build_default_tree(dim, rows, axis)?),
         })
     }
 
@@ -232,6 +272,27 @@ impl KnnIndex {
         self.knn2(q, k, bound2, out);
         if out.len() < k && bound2.is_finite() {
             self.knn2(q, k, f32::INFINITY, out);
+        }
+    }
+
+    /// Like [`KnnIndex::knn`], with `hints`: demonstration rows likely to be among or near
+    /// the neighbours (see [`Subspace::knn_hinted`]). Exact whatever the hints; only the
+    /// principal-subspace path uses them.
+    pub fn knn_hinted(&self, q: &[f32], k: usize, bound: f32, hints: &[u32], out: &mut Vec<Hit>) {
+        let k = k.min(self.len);
+        match &self.kind {
+            Kind::Subspace(s) if !hints.is_empty() => {
+                let bound2 = if bound.is_finite() {
+                    bound * bound * (1.0 + 1e-4) + 1e-12
+                } else {
+                    f32::INFINITY
+                };
+                s.knn_hinted(q, k, bound2, hints, out);
+                if out.len() < k && bound2.is_finite() {
+                    s.knn(q, k, f32::INFINITY, out);
+                }
+            }
+            _ => self.knn(q, k, bound, out),
         }
     }
 

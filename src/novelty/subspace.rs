@@ -33,6 +33,9 @@ pub struct Subspace {
     basis: Vec<f32>,
     points: Vec<f32>,
     rows: Vec<u32>,
+    /// Local id of each demonstration row, `u32::MAX` where the row is not indexed; empty
+    /// when `rows` is `0..n` (the local id is the row itself).
+    local: Vec<u32>,
     tree: Box<dyn TreeBackend>,
 }
 
@@ -89,6 +92,7 @@ impl Subspace {
             basis,
             points,
             rows: rows.to_vec(),
+            local: local_ids(rows),
             tree: build_tree(1, &[], |_, _| 0.0)?,
         };
         let e = m + 1;
@@ -141,10 +145,23 @@ impl Subspace {
     /// tree handed out every point within `bound2`) the answer is already complete; only
     /// otherwise does a radius search collect every point whose lower bound is within `u`.
     pub fn knn(&self, q: &[f32], k: usize, bound2: f32, out: &mut Vec<Hit>) {
+        self.knn_hinted(q, k, bound2, &[], out);
+    }
+
+    /// Like [`Subspace::knn`], with `hints`: demonstration rows likely to be near `q` (for a
+    /// step of a rollout, the successors of the previous step's neighbours). Any `k` distinct
+    /// indexed points bound the k-th distance from above by their own k-th exact distance, so
+    /// the hints can only tighten `bound2`. The answer is exact whatever the hints; good hints
+    /// only let the tree prune sooner.
+    pub fn knn_hinted(&self, q: &[f32], k: usize, bound2: f32, hints: &[u32], out: &mut Vec<Hit>) {
         out.clear();
         let mut e = [0.0f32; SUBSPACE_TREE_DIM];
         let e = &mut e[..self.m + 1];
         self.embed(q, e);
+        let bound2 = match self.hint_bound(q, k, hints) {
+            Some(u) => bound2.min(u * (1.0 + 1e-5) + 1e-12),
+            None => bound2,
+        };
         let want = (2 * k).max(8);
         let mut cand = Vec::with_capacity(want);
         self.tree.knn(e, want, bound2, &mut cand);
@@ -170,6 +187,57 @@ impl Subspace {
                 .map(|&(i, d)| (self.rows[i as usize], d)),
         );
     }
+
+    /// Local id of a demonstration row, if it is indexed.
+    fn local_of(&self, row: u32) -> Option<u32> {
+        if self.local.is_empty() {
+            (row < self.rows.len() as u32).then_some(row)
+        } else {
+            self.local
+                .get(row as usize)
+                .copied()
+                .filter(|&i| i != u32::MAX)
+        }
+    }
+
+    /// The k-th smallest exact squared distance from `q` to the distinct indexed rows among
+    /// `hints`; `None` when they hold fewer than `k`.
+    fn hint_bound(&self, q: &[f32], k: usize, hints: &[u32]) -> Option<f32> {
+        if k == 0 || hints.len() < k {
+            return None;
+        }
+        let mut ids = [0u32; 64];
+        let mut n = 0;
+        for i in hints.iter().filter_map(|&r| self.local_of(r)) {
+            if n < ids.len() && !ids[..n].contains(&i) {
+                ids[n] = i;
+                n += 1;
+            }
+        }
+        if n < k {
+            return None;
+        }
+        let mut d = [0.0f32; 64];
+        for (d, &i) in d.iter_mut().zip(&ids[..n]) {
+            *d = self.exact(q, i);
+        }
+        let d = &mut d[..n];
+        d.select_nth_unstable_by(k - 1, f32::total_cmp);
+        Some(d[k - 1])
+    }
+}
+
+/// The local-id table of [`Subspace`]: empty when `rows` is `0..n`.
+fn local_ids(rows: &[u32]) -> Vec<u32> {
+    if rows.iter().enumerate().all(|(i, &r)| r == i as u32) {
+        return Vec::new();
+    }
+    let top = rows.iter().max().map_or(0, |&r| r as usize + 1);
+    let mut local = vec![u32::MAX; top];
+    for (i, &r) in rows.iter().enumerate() {
+        local[r as usize] = i as u32;
+    }
+    local
 }
 
 /// Principal axes of `rows` of `states` scaled by `inv_scale`, from at most

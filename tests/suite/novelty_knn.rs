@@ -91,6 +91,113 @@ fn seeded_chains_give_the_same_neighbours_as_plain_queries() {
     }
 }
 
+/// Brute force over a subset of rows: hits name demonstration rows, as the index's do.
+fn brute_subset(
+    states: &[f32],
+    dim: usize,
+    inv: &[f32],
+    rows: &[u32],
+    q: &[f32],
+) -> Vec<(u32, f32)> {
+    let sub: Vec<f32> = rows
+        .iter()
+        .flat_map(|&r| {
+            states[r as usize * dim..(r as usize + 1) * dim]
+                .iter()
+                .copied()
+        })
+        .collect();
+    brute_knn(&sub, dim, inv, q, 5)
+        .into_iter()
+        .map(|(i, d)| (rows[i as usize], d))
+        .collect()
+}
+
+#[test]
+fn hinted_subspace_chains_equal_brute_force_on_a_subset_index() {
+    // The subspace path (16 features on a 4-dimensional latent path) over every other
+    // episode, as the calibration's fit index is built over part of the demonstrations:
+    // hints then name rows that are not indexed, which must be skipped. Oracle: brute force.
+    let dim = 16;
+    let mut spec = SynthSpec::expert(10, 150, dim, 21);
+    spec.latent = 4;
+    let demos = trajectories(&spec);
+    let rows: Vec<u32> = (0..demos.len() as u32)
+        .filter(|r| (r / 150) % 2 == 0)
+        .collect();
+    let inv = vec![1.0f32; dim];
+    let index = KnnIndex::build(&demos.states, dim, &inv, &rows).unwrap();
+    assert!(
+        index.path().starts_with("principal subspace"),
+        "{}",
+        index.path()
+    );
+    let mut roll = SynthSpec::expert(3, 150, dim, 22);
+    roll.latent = 4;
+    roll.drift = 0.02;
+    let steps = trajectories(&roll);
+    let p = Progress::new();
+    // Every step (hints one row ahead) and every third step (hints three rows ahead).
+    for stride in [1, 3] {
+        let picked: Vec<usize> = (0..steps.len()).step_by(stride).collect();
+        let hits = knn_rows(&index, &inv, &steps, &picked, 5, true, "", &p).unwrap();
+        for (&row, got) in picked.iter().zip(hits.chunks_exact(5)) {
+            let want = brute_subset(&demos.states, dim, &inv, &rows, steps.state(row));
+            for (g, w) in got.iter().zip(&want) {
+                assert!(
+                    (g.1 - w.1).abs() <= 1e-4 * w.1.max(1e-3),
+                    "stride {stride}, row {row}: {got:?} vs {want:?}"
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn misleading_hints_never_change_the_answer() {
+    // Hints that are far away, repeated, not indexed or past the last row: the answer must
+    // still be brute force's (a hint only ever tightens an upper bound).
+    let dim = 16;
+    let mut spec = SynthSpec::expert(6, 150, dim, 5);
+    spec.latent = 4;
+    let demos = trajectories(&spec);
+    let rows: Vec<u32> = (0..demos.len() as u32).filter(|r| r % 7 != 0).collect();
+    let inv = vec![1.0f32; dim];
+    let index = KnnIndex::build(&demos.states, dim, &inv, &rows).unwrap();
+    assert!(
+        index.path().starts_with("principal subspace"),
+        "{}",
+        index.path()
+    );
+    let mut rng = Rng::new(9);
+    let mut hits = Vec::new();
+    let bad_hints: [&[u32]; 4] = [
+        &[0, 0, 0, 0, 0, 0, 0, 0, 0, 0],
+        &[7, 14, 21, 28, 35, 42, 49],
+        &[u32::MAX, u32::MAX - 1, 899, 898, 897, 896, 895, 1, 2],
+        &[1, 2, 3, 4, 5, 6, 8, 9, 10, 11],
+    ];
+    for _ in 0..30 {
+        let base = (rng.uniform() * demos.len() as f64) as usize;
+        let q: Vec<f32> = demos
+            .state(base)
+            .iter()
+            .map(|x| x + rng.normal() as f32 * 0.2)
+            .collect();
+        let want = brute_subset(&demos.states, dim, &inv, &rows, &q);
+        for hints in bad_hints {
+            index.knn_hinted(&q, 5, f32::INFINITY, hints, &mut hits);
+            assert_eq!(hits.len(), 5);
+            for (g, w) in hits.iter().zip(&want) {
+                assert!(
+                    (g.1 - w.1).abs() <= 1e-4 * w.1.max(1e-3),
+                    "{hints:?}: {hits:?} vs {want:?}"
+                );
+            }
+        }
+    }
+}
+
 #[derive(serde::Deserialize)]
 struct ScipyFixture {
     scipy: String,
