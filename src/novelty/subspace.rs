@@ -14,7 +14,12 @@
 //! measures those exactly. The answer is exact; only the speed depends on how much of the
 //! variance the subspace holds.
 
+use rayon::prelude::*;
+
 use super::index::{Hit, TreeBackend, build_tree};
+
+/// Rows per parallel block when the index is built.
+const BLOCK_ROWS: usize = 16_384;
 
 /// Widest tree of the subspace path: principal components plus the residual norm.
 pub const SUBSPACE_TREE_DIM: usize = 16;
@@ -79,11 +84,20 @@ impl Subspace {
         m: usize,
     ) -> Result<Self, String> {
         let m = m.min(dim).min(SUBSPACE_TREE_DIM - 1);
-        let mut points = Vec::with_capacity(rows.len() * dim);
-        for &r in rows {
-            let s = &states[r as usize * dim..(r as usize + 1) * dim];
-            points.extend(s.iter().zip(inv_scale).map(|(x, i)| x * i));
-        }
+        // Scaling and embedding run in parallel blocks of rows: single-threaded they took
+        // about 0.09 s of each 1M-row build (bench w1parts).
+        let mut points = vec![0.0f32; rows.len() * dim];
+        points
+            .par_chunks_mut(BLOCK_ROWS * dim)
+            .zip(rows.par_chunks(BLOCK_ROWS))
+            .for_each(|(out, rows)| {
+                for (o, &r) in out.chunks_exact_mut(dim).zip(rows) {
+                    let s = &states[r as usize * dim..(r as usize + 1) * dim];
+                    for ((o, x), i) in o.iter_mut().zip(s).zip(inv_scale) {
+                        *o = x * i;
+                    }
+                }
+            });
         let (mean, basis) = (axes.mean.clone(), axes.vectors[..m * dim].to_vec());
         let mut s = Subspace {
             dim,
@@ -97,9 +111,14 @@ impl Subspace {
         };
         let e = m + 1;
         let mut embedded = vec![0.0f32; rows.len() * e];
-        for (i, out) in embedded.chunks_exact_mut(e).enumerate() {
-            s.embed(&s.points[i * dim..(i + 1) * dim], out);
-        }
+        embedded
+            .par_chunks_mut(BLOCK_ROWS * e)
+            .zip(s.points.par_chunks(BLOCK_ROWS * dim))
+            .for_each(|(out, points)| {
+                for (o, p) in out.chunks_exact_mut(e).zip(points.chunks_exact(dim)) {
+                    s.embed(p, o);
+                }
+            });
         let ids: Vec<u32> = (0..rows.len() as u32).collect();
         s.tree = build_tree(e, &ids, |i, j| embedded[i as usize * e + j])?;
         Ok(s)
