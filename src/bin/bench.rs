@@ -233,7 +233,13 @@ fn w1_parts(a: &Args) {
         let (fit, t0) = time(|| KnnIndex::build(&demos.states, 16, &inv, &fit_rows).expect("fit"));
         let (_c, t1) = time(|| knn_rows(&fit, &inv, &demos, &cal, K, true, "", &p));
         drop(fit);
+        let before = reset_peak();
         let (full, t2) = time(|| KnnIndex::build(&demos.states, 16, &inv, &all).expect("full"));
+        println!(
+            "scoring index: resident {:.1} MB above start, peak {:.1} MB above start",
+            mb(status_kb("VmRSS:") - before),
+            mb(status_kb("VmHWM:") - before)
+        );
         let (_h, t3) = time(|| knn_rows(&full, &inv, &steps, &rows, K, true, "", &p));
         let (model, t4) =
             time(|| build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model"));
