@@ -6,7 +6,7 @@ use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
 use crate::progress::Progress;
-use crate::sim::{DemoConfig, DemoError, write_demo_campaign};
+use crate::sim::{DemoConfig, DemoError, LearnerKind, write_demo_campaign};
 
 /// Arguments of `demo`.
 #[derive(Debug, Args)]
@@ -30,6 +30,10 @@ pub struct DemoArgs {
     /// Episodes per round that get top-down frame images.
     #[arg(long, default_value_t = 1)]
     pub frame_episodes: u16,
+    /// The learner that drives the rounds: rbf (radial basis functions), ridge (linear) or
+    /// knn (nearest neighbours).
+    #[arg(long, default_value = DemoConfig::default().learner.name())]
+    pub learner: String,
 }
 
 /// Runs `demo`.
@@ -40,8 +44,15 @@ pub fn run(a: DemoArgs) -> Result<(), CliError> {
             a.demo_steer_noise
         )));
     }
+    let learner = LearnerKind::from_name(&a.learner).ok_or_else(|| {
+        CliError::usage(format!(
+            "--learner {}: expected rbf, ridge or knn",
+            a.learner
+        ))
+    })?;
     let cfg = DemoConfig {
         seed: a.seed,
+        learner,
         episodes: a.episodes as usize,
         demo_episodes: a.demo_episodes as usize,
         demo_steer_noise: a.demo_steer_noise,

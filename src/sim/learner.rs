@@ -1,4 +1,5 @@
-//! The learner: ridge regression from state features to actions, and a bootstrap ensemble.
+//! The linear learner: ridge regression from state features to actions; and a bootstrap
+//! ensemble of any of the learners of [`super::model`].
 //!
 //! Features are standardised with the (weighted) training mean and spread before the fit,
 //! and the penalty is per unit of training weight, so one `lambda` means the same for any
@@ -6,6 +7,7 @@
 //! per-row multiplicities, as in bagging (Breiman 1996).
 
 use super::features::{FEATURE_COUNT, Features};
+use super::model::{LearnerKind, Model};
 use super::policy::{Action, Observation, Policy};
 use super::ridge::{Ridge, RidgeError};
 use super::rng::SplitMix64;
@@ -85,23 +87,26 @@ impl Policy for Learner {
 }
 
 /// Several learners fit on bootstrap resamples of the same data.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug)]
 pub struct Ensemble {
     /// The members.
-    pub members: Vec<Learner>,
+    pub members: Vec<Model>,
 }
 
 impl Ensemble {
-    /// Fits `size` members, each on a bootstrap resample of the rows (drawn with the
-    /// generator seeded by `seed`); row weights multiply the resample counts.
+    /// Fits `size` members of `kind` (`lambda`: the ridge learner's penalty), each on a
+    /// bootstrap resample of the rows (drawn with the generator seeded by `seed`); row
+    /// weights multiply the resample counts.
+    #[allow(clippy::too_many_arguments)]
     pub fn bootstrap(
+        kind: LearnerKind,
         states: &[Features],
         actions: &[Action],
         weights: Option<&[f64]>,
         lambda: f64,
         size: usize,
         seed: u64,
-    ) -> Result<Ensemble, RidgeError> {
+    ) -> Result<Ensemble, String> {
         let n = states.len();
         let mut rng = SplitMix64::new(seed);
         let mut members = Vec::with_capacity(size);
@@ -115,7 +120,13 @@ impl Ensemble {
                     *c *= w;
                 }
             }
-            members.push(Learner::fit(states, actions, Some(&counts), lambda)?);
+            members.push(Model::fit_one(
+                kind,
+                states,
+                actions,
+                Some(&counts),
+                lambda,
+            )?);
         }
         Ok(Ensemble { members })
     }
@@ -176,7 +187,8 @@ mod tests {
         for a in &mut actions {
             a.steer += 0.02 * rng.normal();
         }
-        let e = Ensemble::bootstrap(&states, &actions, None, 0.01, 4, 1).unwrap();
+        let e =
+            Ensemble::bootstrap(LearnerKind::Ridge, &states, &actions, None, 0.01, 4, 1).unwrap();
         let s = e.samples(&states[0]);
         assert_eq!(s.len(), 4);
         assert!(s[0] != s[1]);

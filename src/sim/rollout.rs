@@ -15,7 +15,10 @@ pub const DEPARTURE_COST: f64 = 10.0;
 /// When the expert takes over and hands back (scripted interventions).
 #[derive(Debug, Clone, PartialEq)]
 pub struct InterventionRule {
-    /// The expert takes over once `|lateral_offset|` exceeds this (m).
+    /// The expert takes over once `|lateral_offset|` exceeds this (m). The default, 0.6 m
+    /// (half of the lane's half-width), keeps every round 2 episode of seeds 1 to 10 inside
+    /// the lane; at 0.8 m the radial basis learner, which leaves the line at a steep heading,
+    /// left the lane once in seeds 1 to 3.
     pub engage_offset: f64,
     /// It hands back once `|lateral_offset|` is below this ...
     pub release_offset: f64,
@@ -26,7 +29,7 @@ pub struct InterventionRule {
 impl Default for InterventionRule {
     fn default() -> Self {
         InterventionRule {
-            engage_offset: 0.8,
+            engage_offset: 0.6,
             release_offset: 0.15,
             release_heading: 0.08,
         }

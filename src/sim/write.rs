@@ -16,7 +16,6 @@ use thiserror::Error;
 
 use super::features::demo_spec;
 use super::frames::{encode_png, render_frame};
-use super::ridge::RidgeError;
 use super::scenario::{DemoConfig, DemoRun, EpisodeRun, departure_share, simulate_demo};
 use crate::campaign::spec::{CampaignFile, NoveltySettings, Spec};
 use crate::campaign::steps::{StepRow, StepTable, StepTableBuilder};
@@ -47,7 +46,7 @@ pub enum DemoError {
     },
     /// The learner could not be fit.
     #[error("fitting the learner: {0}")]
-    Fit(#[from] RidgeError),
+    Fit(String),
     /// The work was cancelled.
     #[error("cancelled")]
     Cancelled,
@@ -85,7 +84,7 @@ pub fn write_demo_campaign(
     progress: &Progress,
 ) -> Result<DemoSummary, DemoError> {
     ensure_empty(dir)?;
-    let run = simulate_demo(cfg, progress)?;
+    let run = simulate_demo(cfg, progress).map_err(DemoError::Fit)?;
     if progress.is_cancelled() {
         return Err(DemoError::Cancelled);
     }
@@ -129,16 +128,20 @@ fn ensure_empty(dir: &Path) -> Result<(), DemoError> {
     Ok(())
 }
 
-const DESCRIPTION: &str = "Demo scenario: an orchard rover follows a curving lane between two \
-tree rows. Demonstrations come from a pure pursuit expert with curve-aware speed control; \
-rounds 1 and 2 are rollouts of a ridge-regression learner fit on them (round 1 with bootstrap \
-ensemble samples, round 2 with scripted expert interventions past 0.8 m lateral offset). \
-The lane is 2.4 m wide.";
+fn description(cfg: &DemoConfig) -> String {
+    format!(
+        "Demo scenario: an orchard rover follows a curving lane between two tree rows. \
+Demonstrations come from a pure pursuit expert with curve-aware speed control; rounds 1 and 2 \
+are rollouts of a {} learner fit on them (round 1 with bootstrap ensemble samples, round 2 \
+with scripted expert interventions past 0.6 m lateral offset). The lane is 2.4 m wide.",
+        cfg.learner.describe()
+    )
+}
 
 fn write_campaign_file(dir: &Path, cfg: &DemoConfig, spec: &Spec) -> Result<(), DemoError> {
     let file = CampaignFile {
         name: format!("orchard rover demo (seed {})", cfg.seed),
-        description: DESCRIPTION.into(),
+        description: description(cfg),
         step_seconds: Some(cfg.rollout.dt),
         spec: spec.clone(),
         novelty: NoveltySettings::default(),

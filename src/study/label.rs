@@ -16,7 +16,7 @@ use crate::sim::rng::SplitMix64;
 use crate::sim::scenario::run_set;
 use std::sync::Arc;
 
-use super::model::{LearnerKind, Model};
+use crate::sim::model::{LearnerKind, Model};
 use crate::sim::{Action, DemoConfig, Drivers, EpisodeRun, RolloutConfig, demo_spec};
 
 /// The annotator name under which the scripted expert's labels are written.

@@ -24,12 +24,11 @@
 
 pub mod chain;
 mod label;
-pub mod model;
 mod report;
 
 use std::path::{Path, PathBuf};
 
-pub use model::{LearnerKind, Model};
+pub use crate::sim::model::{LearnerKind, Model};
 pub use report::{write_csv, write_plot};
 
 use crate::progress::Progress;

@@ -1,5 +1,5 @@
 //! Closed loop on fixed seeds: the pure pursuit expert keeps the rover in the lane on every
-//! demonstration episode; the ridge learner fit on them leaves the lane in some episodes
+//! demonstration episode; the demo's learner fit on them leaves the lane in some episodes
 //! but not all (covariate shift); scripted interventions keep round 2 inside the lane.
 
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
@@ -41,11 +41,12 @@ fn expert_stays_in_the_lane_and_the_learner_drifts_in_some_episodes() {
         shares.push(learner);
     }
     // Some, not all: over the 36 episodes of the seed set the learner leaves the lane in
-    // between 10% and 60% (measured: seeds 1-3 give 0.25, 0.33, 0.00).
+    // between 20% and 90% (measured with the radial basis learner: seeds 1-3 give 0.58,
+    // 0.50, 0.58; the linear ridge learner gave 0.25, 0.33, 0.00).
     let mean = shares.iter().sum::<f64>() / shares.len() as f64;
     println!("learner departure share over the seed set: {mean:.3}");
     assert!(
-        (0.1..=0.6).contains(&mean),
+        (0.2..=0.9).contains(&mean),
         "mean learner departure share {mean}"
     );
 }
