@@ -110,6 +110,7 @@ pub fn strip_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) 
         .show(ui, |ui| {
             // Fill the panel: egui keeps a panel at the size of its contents.
             ui.set_min_height(ui.available_height());
+            let width = ui.available_width();
             controls_ui(wb, ui, cmds);
             if wb.campaign().is_none() {
                 ui.weak(texts::NOTHING_OPEN);
@@ -119,7 +120,7 @@ pub fn strip_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) 
                 ui.weak(texts::NO_EPISODES);
                 return;
             }
-            wb.strip_width = ui.available_width();
+            wb.strip_width = width;
             wb.ensure_series();
             plots_ui(wb, ui, cmds);
         });
@@ -146,7 +147,9 @@ fn controls_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             cmds.push(Command::Speed(true));
         }
         ui.separator();
-        ui.label(wb.readout());
+        // Cut to the panel: an overlong line would widen the panel's contents, and the plots
+        // below would then run on under the desk (their last steps hidden).
+        ui.add(egui::Label::new(wb.readout()).truncate());
     });
 }
 
@@ -167,7 +170,7 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     legend_ui(ui);
     // Bounds by `include_y`, never by setting them: set bounds would switch auto-bounds off for
     // good in the plot's memory, and the scores that arrive later would be cut off.
-    let resp = base_plot("novelty", t0, t1, novelty_h)
+    let resp = base_plot("novelty", t0, t1, novelty_h, wb.strip_width)
         .y_axis_label("novelty")
         .include_y(0.0)
         .include_y(signals.map_or(1.0, |s| 2.0 * s.threshold as f64))
@@ -199,7 +202,7 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     let Some(camp) = wb.campaign() else { return };
     for (c, ch) in camp.spec().actions.iter().enumerate() {
         ui.small(wb.channel_readout(c));
-        let mut plot = base_plot(format!("channel-{c}"), t0, t1, channel_h);
+        let mut plot = base_plot(format!("channel-{c}"), t0, t1, channel_h, wb.strip_width);
         match &ch.kind {
             ChannelKind::Continuous { low, high } => plot = plot.include_y(*low).include_y(*high),
             ChannelKind::Discrete { choices } => {
@@ -247,9 +250,10 @@ fn legend_ui(ui: &mut egui::Ui) {
     });
 }
 
-fn base_plot<'a>(id: impl egui::AsIdSalt, t0: f64, t1: f64, height: f32) -> Plot<'a> {
+fn base_plot<'a>(id: impl egui::AsIdSalt, t0: f64, t1: f64, height: f32, width: f32) -> Plot<'a> {
     Plot::new(id)
         .height(height)
+        .width(width)
         .include_x(t0)
         .include_x(t1)
         .allow_drag(false)

@@ -194,6 +194,11 @@ impl Workbench {
         self.work.score.cancel();
     }
 
+    /// Width (points) the strip's plots were last drawn at.
+    pub fn strip_width(&self) -> f32 {
+        self.strip_width
+    }
+
     /// Whether the episode is playing.
     pub fn playing(&self) -> bool {
         self.playback.playing

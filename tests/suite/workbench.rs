@@ -262,3 +262,37 @@ fn corrections_in_the_ledgers_are_counted_in_the_bar_and_the_shelf() {
     h.get_by_label_contains("flagged · 2 corrected");
     h.get_by_label_contains("interventions · 2 corrected");
 }
+
+/// The strip's plots stay inside the strip, beside the desk, however long the step readout
+/// above them is: an overlong readout once widened the strip's contents, so the plots ran on
+/// under the desk and an episode's last steps could not be seen or clicked.
+#[test]
+fn the_strip_plots_fit_beside_the_desk_in_a_narrow_window() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let ui = countersteer::app::UiState {
+        annotator: "tester".into(),
+        ..Default::default()
+    };
+    let mut wb = Workbench::new(ui);
+    wb.open(dir.path());
+    let width = 900.0;
+    let mut h = Harness::builder()
+        .with_size(egui::vec2(width, 800.0))
+        .with_step_dt(0.1)
+        .build_ui_state(|ui, wb: &mut Workbench| wb.show(ui), wb);
+    window_kit::settle(&mut h);
+    h.get_by_label("r1-b").click();
+    h.step();
+    h.step();
+    // Buttons and speed take about 420 points of the strip's row; the readout is longer than
+    // what is left at this width.
+    let readout = h.state().readout();
+    assert!(readout.chars().count() > 40, "{readout}");
+    // The desk keeps at least 280 points on the right (its smallest size).
+    let strip = h.state().strip_width();
+    assert!(
+        strip > 100.0 && strip <= width - 280.0,
+        "strip plots {strip} points wide in a {width}-point window"
+    );
+}
