@@ -53,7 +53,7 @@ pub struct Desk {
     pub last_save: Option<Duration>,
     /// Time the last verdict's append with fsync took.
     pub last_append: Option<Duration>,
-    /// Go to the next open entry as soon as the list is planned (`open --review`).
+    /// Go to the first open entry as soon as the list is planned (`open --review`).
     pub start_reviewing: bool,
 }
 
@@ -142,7 +142,9 @@ impl Workbench {
         self.desk.budget_text = self.ui.budget.max(1).to_string();
         self.refresh_sitting();
         if std::mem::take(&mut self.desk.start_reviewing) {
-            self.go_next_open();
+            // The list's first open entry, even when it is the step already selected (a
+            // round opens on its first episode's first step, often the top onset).
+            self.go_open(false);
         }
     }
 
@@ -299,7 +301,13 @@ impl Workbench {
 
     /// Moves the playhead to the highest-ranked open entry other than the step on the desk.
     pub(super) fn go_next_open(&mut self) {
-        let here = self.current_row();
+        self.go_open(true);
+    }
+
+    /// Puts the highest-ranked open entry on the desk; with `move_on`, one that is not the
+    /// step already there.
+    fn go_open(&mut self, move_on: bool) {
+        let here = if move_on { self.current_row() } else { None };
         let next = self
             .desk
             .sitting

@@ -87,7 +87,7 @@ impl eframe::App for App {
 pub struct Start {
     /// Annotator for this session (else the remembered one, then `$COUNTERSTEER_ANNOTATOR`).
     pub annotator: Option<String>,
-    /// Show the review list and put its next open entry on the desk once it is planned.
+    /// Show the review list and put its first open entry on the desk once it is planned.
     pub review: bool,
 }
 

@@ -204,6 +204,11 @@ impl Workbench {
         self.playback.playing
     }
 
+    /// The selected round's signals, once scored.
+    pub fn round_signals(&self) -> Option<&RoundSignals> {
+        self.ui.round.and_then(|r| self.signals.for_round(r))
+    }
+
     /// Gives the selected round scores from elsewhere (tests, or a caller that scored already).
     pub fn set_signals(&mut self, signals: RoundSignals) {
         self.signals.current = Some(Arc::new(signals));

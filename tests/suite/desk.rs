@@ -280,3 +280,27 @@ fn digit_keys_pick_choices_of_the_active_choice_channel_only() {
     press(&mut h, Key::F1);
     assert!(h.query_by_label("1 ... 9").is_some());
 }
+
+/// `open --review` puts the list's FIRST open entry on the desk, also when that entry is the
+/// step already selected (a round opens on its first episode's first step, which is often the
+/// top onset; the window used to move on to the second entry then).
+#[test]
+fn starting_a_review_puts_the_first_open_entry_on_the_desk() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let table = steps(dir.path());
+    let mut h = harness(dir.path(), "ana");
+    let first = h.state().desk.sitting.as_ref().unwrap().entries[0].row;
+    // The playhead on the first entry's step, then the list planned again as when the
+    // scores arrive, with a review to start.
+    let e = &table.episodes[table.episode_of(first)];
+    h.state_mut().ui.episode = Some(e.name.clone());
+    h.state_mut().ui.step = first - e.start;
+    h.step();
+    assert_eq!(h.state().current_row(), Some(first));
+    let signals = h.state().round_signals().unwrap().clone();
+    h.state_mut().desk.start_reviewing = true;
+    h.state_mut().set_signals(signals);
+    h.step();
+    assert_eq!(h.state().current_row(), Some(first));
+}
