@@ -97,20 +97,9 @@ where
     }
 }
 
-/// Like [`build_tree`] with kiddo's default 32 points per leaf (`kiddo::ImmutableKdTree`):
-/// the benchmark's plain baseline.
-pub fn build_default_tree<F>(
-    dim: usize,
-    rows: &[u32],
-    axis: F,
-) -> Result<Box<dyn TreeBackend>, String>
-where
-    F: Fn(u32, usize) -> f32 + Sync,
-{
-    build_tree_leaves::<32, F>(dim, rows, axis)
-}
-
-fn build_tree_leaves<const B: usize, F>(
+/// Like [`build_tree`] with `B` points per leaf (32 is kiddo's default,
+/// `kiddo::ImmutableKdTree`).
+pub fn build_tree_leaves<const B: usize, F>(
     dim: usize,
     rows: &[u32],
     axis: F,
@@ -215,8 +204,8 @@ impl KnnIndex {
         })
     }
 
-    /// A plain tree whatever the data (states of at most [`MAX_TREE_DIM`] features): the
-    /// benchmark's baseline.
+    /// A plain tree with kiddo's default 32 points per leaf, whatever the data (states of at
+    /// most [`MAX_TREE_DIM`] features): the benchmark's baseline.
     pub fn build_plain(
         states: &[f32],
         dim: usize,
@@ -227,7 +216,7 @@ impl KnnIndex {
         Ok(KnnIndex {
             dim,
             len: rows.len(),
-            kind: Kind::Tree(build_default_tree(dim, rows, axis)?),
+            kind: Kind::Tree(build_tree_leaves::<32, _>(dim, rows, axis)?),
         })
     }
 

@@ -113,25 +113,34 @@ fn brute_subset(
         .collect()
 }
 
+/// Demonstrations of `episodes` 150-step episodes with 16 features on a 4-dimensional latent
+/// path, and an index (which must take the subspace path) over the rows `keep` accepts.
+fn subspace_over(
+    episodes: usize,
+    seed: u64,
+    keep: impl Fn(u32) -> bool,
+) -> (countersteer::campaign::StepTable, Vec<u32>, KnnIndex) {
+    let mut spec = SynthSpec::expert(episodes, 150, 16, seed);
+    spec.latent = 4;
+    let demos = trajectories(&spec);
+    let rows: Vec<u32> = (0..demos.len() as u32).filter(|&r| keep(r)).collect();
+    let index = KnnIndex::build(&demos.states, 16, &[1.0; 16], &rows).unwrap();
+    assert!(
+        index.path().starts_with("principal subspace"),
+        "{}",
+        index.path()
+    );
+    (demos, rows, index)
+}
+
 #[test]
 fn hinted_subspace_chains_equal_brute_force_on_a_subset_index() {
     // The subspace path (16 features on a 4-dimensional latent path) over every other
     // episode, as the calibration's fit index is built over part of the demonstrations:
     // hints then name rows that are not indexed, which must be skipped. Oracle: brute force.
     let dim = 16;
-    let mut spec = SynthSpec::expert(10, 150, dim, 21);
-    spec.latent = 4;
-    let demos = trajectories(&spec);
-    let rows: Vec<u32> = (0..demos.len() as u32)
-        .filter(|r| (r / 150) % 2 == 0)
-        .collect();
+    let (demos, rows, index) = subspace_over(10, 21, |r| (r / 150) % 2 == 0);
     let inv = vec![1.0f32; dim];
-    let index = KnnIndex::build(&demos.states, dim, &inv, &rows).unwrap();
-    assert!(
-        index.path().starts_with("principal subspace"),
-        "{}",
-        index.path()
-    );
     let mut roll = SynthSpec::expert(3, 150, dim, 22);
     roll.latent = 4;
     roll.drift = 0.02;
@@ -158,17 +167,8 @@ fn misleading_hints_never_change_the_answer() {
     // Hints that are far away, repeated, not indexed or past the last row: the answer must
     // still be brute force's (a hint only ever tightens an upper bound).
     let dim = 16;
-    let mut spec = SynthSpec::expert(6, 150, dim, 5);
-    spec.latent = 4;
-    let demos = trajectories(&spec);
-    let rows: Vec<u32> = (0..demos.len() as u32).filter(|r| r % 7 != 0).collect();
+    let (demos, rows, index) = subspace_over(6, 5, |r| r % 7 != 0);
     let inv = vec![1.0f32; dim];
-    let index = KnnIndex::build(&demos.states, dim, &inv, &rows).unwrap();
-    assert!(
-        index.path().starts_with("principal subspace"),
-        "{}",
-        index.path()
-    );
     let mut rng = Rng::new(9);
     let mut hits = Vec::new();
     let bad_hints: [&[u32]; 4] = [
