@@ -152,7 +152,7 @@ impl Subspace {
 
     fn exact(&self, q: &[f32], i: u32) -> f32 {
         let p = &self.points[i as usize * self.dim..(i as usize + 1) * self.dim];
-        p.iter().zip(q).map(|(a, b)| (a - b) * (a - b)).sum()
+        squared_distance(p, q)
     }
 
     /// The `k` nearest points within squared distance `bound2`, exact, ascending.
@@ -244,6 +244,26 @@ impl Subspace {
         d.select_nth_unstable_by(k - 1, f32::total_cmp);
         Some(d[k - 1])
     }
+}
+
+/// Squared Euclidean distance between two equally long vectors, summed in 8 independent
+/// lanes (then the lanes in a fixed order) so that the compiler can use SIMD: a plain
+/// running sum cannot be reordered. On wide states whose candidates are many, this step took
+/// 71 % of a profile of `countersteer score`.
+pub fn squared_distance(a: &[f32], b: &[f32]) -> f32 {
+    let (ca, ra) = a.as_chunks::<8>();
+    let (cb, rb) = b.as_chunks::<8>();
+    let mut acc = [0.0f32; 8];
+    for (x, y) in ca.iter().zip(cb) {
+        for l in 0..8 {
+            let d = x[l] - y[l];
+            acc[l] += d * d;
+        }
+    }
+    let head = ((acc[0] + acc[4]) + (acc[1] + acc[5])) + ((acc[2] + acc[6]) + (acc[3] + acc[7]));
+    ra.iter()
+        .zip(rb)
+        .fold(head, |s, (x, y)| s + (x - y) * (x - y))
 }
 
 /// The local-id table of [`Subspace`]: empty when `rows` is `0..n`.
@@ -386,6 +406,26 @@ mod tests {
         assert_eq!(components_for(&[1.0; 20]), 15);
         // Fewer axes than a tree's components: all of them.
         assert_eq!(components_for(&[2.0, 1.0]), 2);
+    }
+
+    #[test]
+    fn lane_sums_equal_the_squared_distance_for_every_length() {
+        // Against the definition summed in f64 (lengths with and without a remainder).
+        for n in [0usize, 1, 7, 8, 9, 16, 17, 64, 67] {
+            let a: Vec<f32> = (0..n).map(|i| (i as f32 * 0.37).sin() * 3.0).collect();
+            let b: Vec<f32> = (0..n).map(|i| (i as f32 * 0.11).cos()).collect();
+            let want: f64 = a
+                .iter()
+                .zip(&b)
+                .map(|(x, y)| (f64::from(*x) - f64::from(*y)).powi(2))
+                .sum();
+            let got = f64::from(squared_distance(&a, &b));
+            assert!(
+                (got - want).abs() <= 1e-5 * want.max(1.0),
+                "n {n}: {got} vs {want}"
+            );
+        }
+        assert_eq!(squared_distance(&[1.0, 2.0], &[4.0, 6.0]), 25.0);
     }
 
     #[test]
