@@ -251,17 +251,7 @@ impl KnnIndex {
     /// used to prune; pass `f32::INFINITY` when none is known. An underestimated bound only
     /// costs a second search: the answer is always exact.
     pub fn knn(&self, q: &[f32], k: usize, bound: f32, out: &mut Vec<Hit>) {
-        let k = k.min(self.len);
-        let bound2 = if bound.is_finite() {
-            // A relative margin absorbs rounding between the bound's arithmetic and kiddo's.
-            bound * bound * (1.0 + 1e-4) + 1e-12
-        } else {
-            f32::INFINITY
-        };
-        self.knn2(q, k, bound2, out);
-        if out.len() < k && bound2.is_finite() {
-            self.knn2(q, k, f32::INFINITY, out);
-        }
+        self.knn_hinted(q, k, bound, &[], out);
     }
 
     /// Like [`KnnIndex::knn`], with `hints`: demonstration rows likely to be among or near
@@ -269,26 +259,22 @@ impl KnnIndex {
     /// principal-subspace path uses them.
     pub fn knn_hinted(&self, q: &[f32], k: usize, bound: f32, hints: &[u32], out: &mut Vec<Hit>) {
         let k = k.min(self.len);
-        match &self.kind {
-            Kind::Subspace(s) if !hints.is_empty() => {
-                let bound2 = if bound.is_finite() {
-                    bound * bound * (1.0 + 1e-4) + 1e-12
-                } else {
-                    f32::INFINITY
-                };
-                s.knn_hinted(q, k, bound2, hints, out);
-                if out.len() < k && bound2.is_finite() {
-                    s.knn(q, k, f32::INFINITY, out);
-                }
-            }
-            _ => self.knn(q, k, bound, out),
+        let bound2 = if bound.is_finite() {
+            // A relative margin absorbs rounding between the bound's arithmetic and kiddo's.
+            bound * bound * (1.0 + 1e-4) + 1e-12
+        } else {
+            f32::INFINITY
+        };
+        self.knn2(q, k, bound2, hints, out);
+        if out.len() < k && bound2.is_finite() {
+            self.knn2(q, k, f32::INFINITY, hints, out);
         }
     }
 
-    fn knn2(&self, q: &[f32], k: usize, bound2: f32, out: &mut Vec<Hit>) {
+    fn knn2(&self, q: &[f32], k: usize, bound2: f32, hints: &[u32], out: &mut Vec<Hit>) {
         match &self.kind {
             Kind::Tree(t) => t.knn(q, k, bound2, out),
-            Kind::Subspace(s) => s.knn(q, k, bound2, out),
+            Kind::Subspace(s) => s.knn_hinted(q, k, bound2, hints, out),
         }
     }
 }
