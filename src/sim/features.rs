@@ -107,3 +107,25 @@ mod tests {
         assert!((f[5] - lane.curvature_at(34.0)).abs() < 1e-3);
     }
 }
+
+/// Helpers for the learners' worked examples.
+#[cfg(test)]
+pub(crate) mod examples {
+    use super::{FEATURE_COUNT, Features};
+    use crate::sim::policy::Action;
+
+    /// A state whose lateral offset is `x` and every other feature 0.
+    pub fn at(x: f64) -> Features {
+        let mut f = [0.0; FEATURE_COUNT];
+        f[0] = x;
+        f
+    }
+
+    /// One action per steering value, all with acceleration `accel`.
+    pub fn steering(values: &[f64], accel: f64) -> Vec<Action> {
+        values
+            .iter()
+            .map(|&steer| Action { steer, accel })
+            .collect()
+    }
+}

@@ -111,12 +111,7 @@ impl Policy for KnnLearner {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn at(x: f64) -> Features {
-        let mut f = [0.0; FEATURE_COUNT];
-        f[0] = x;
-        f
-    }
+    use crate::sim::features::examples::{at, steering};
 
     #[test]
     fn inverse_distance_mean_by_hand() {
@@ -125,13 +120,7 @@ mod tests {
         // so the steering is their mean 0.05. Query 2.5, k = 2: neighbours 3 (d 0.5, weight
         // 1/0.55) and 1 (d 1.5, weight 1/1.55): (0.3/0.55 + 0.1/1.55) / (1/0.55 + 1/1.55).
         let states = [at(0.0), at(1.0), at(3.0)];
-        let actions: Vec<Action> = [0.0, 0.1, 0.3]
-            .iter()
-            .map(|&s| Action {
-                steer: s,
-                accel: 0.2,
-            })
-            .collect();
+        let actions = steering(&[0.0, 0.1, 0.3], 0.2);
         let l = KnnLearner::fit(&states, &actions, None, &[1.0; FEATURE_COUNT], 2).unwrap();
         let a = l.predict(&at(0.5));
         assert!((a.steer - 0.05).abs() < 1e-6 && (a.accel - 0.2).abs() < 1e-6);

@@ -208,12 +208,7 @@ impl Policy for RbfLearner {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn at(x: f64) -> Features {
-        let mut f = [0.0; FEATURE_COUNT];
-        f[0] = x;
-        f
-    }
+    use crate::sim::features::examples::{at, steering};
 
     /// Three states at 0, 1 and 2 (scale 1), two centres: k-center picks 0 (first), then 2
     /// (farthest); the covering radius is 1 (the state at 1), so h = 1 and
@@ -225,13 +220,7 @@ mod tests {
     #[test]
     fn three_points_two_bumps_interpolate_and_fall_back_to_the_intercept() {
         let states = [at(0.0), at(1.0), at(2.0)];
-        let actions: Vec<Action> = [0.0, 0.02, 0.0]
-            .iter()
-            .map(|&s| Action {
-                steer: s,
-                accel: 0.1,
-            })
-            .collect();
+        let actions = steering(&[0.0, 0.02, 0.0], 0.1);
         let settings = RbfSettings {
             centres: 2,
             lambda: 1e-12,
