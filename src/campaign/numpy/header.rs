@@ -46,6 +46,7 @@ pub(super) fn checked_start<R: Read>(mut r: R) -> Result<impl Read, String> {
         bytes.extend(rest);
     }
     check_nesting(&bytes[start.min(bytes.len())..])?;
+    check_shape(&bytes[start.min(bytes.len())..])?;
     Ok(std::io::Cursor::new(bytes).chain(r))
 }
 
@@ -73,6 +74,44 @@ fn check_nesting(text: &[u8]) -> Result<(), String> {
     Ok(())
 }
 
+/// Refuses a description whose `shape` sizes, zeros left out, multiply past `u64::MAX`.
+/// npyz multiplies them unchecked (the count of values, and each axis' stride), which panics
+/// in a debug build and wraps silently in a release build (found by fuzzing in CI,
+/// `fuzz/regressions/npy/shape-product-overflow`). Sizes that are not plain decimal numbers
+/// are left to npyz's own parser to refuse.
+fn check_shape(text: &[u8]) -> Result<(), String> {
+    let text = String::from_utf8_lossy(text);
+    let mut rest = text.as_ref();
+    while let Some(at) = rest.find("shape") {
+        rest = &rest[at + "shape".len()..];
+        let after = rest.trim_start_matches(['\'', '"', ' ', '\t']);
+        let Some(after) = after.strip_prefix(':') else {
+            continue;
+        };
+        let after = after.trim_start();
+        let Some(body) = after.strip_prefix(['(', '[']) else {
+            continue;
+        };
+        let body = &body[..body.find([')', ']']).unwrap_or(body.len())];
+        let mut product = 1u64;
+        for size in body.split(',').map(str::trim).filter(|t| !t.is_empty()) {
+            if !size.bytes().all(|b| b.is_ascii_digit()) {
+                continue;
+            }
+            let n = size.parse::<u64>().ok().filter(|&n| n > 0);
+            product = match n {
+                None if size.bytes().any(|b| b != b'0') => None,
+                None => Some(product),
+                Some(n) => product.checked_mul(n),
+            }
+            .ok_or_else(|| {
+                format!("not a NumPy array: the header's shape ({body}) has more values than can be counted")
+            })?;
+        }
+    }
+    Ok(())
+}
+
 /// The shape an array's header declares, reading only the header.
 pub fn declared_shape<R: Read>(r: R) -> Result<Vec<u64>, String> {
     let npy = NpyFile::new(checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
@@ -93,6 +132,25 @@ mod tests {
         let bytes = std::fs::read(path).unwrap();
         let e = declared_shape(&bytes[..]).unwrap_err();
         assert!(e.contains("nests brackets deeper than 8"), "{e}");
+    }
+
+    #[test]
+    fn a_shape_whose_product_overflows_is_refused() {
+        // Found by fuzzing in CI: npyz multiplied these sizes unchecked and panicked.
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/fuzz/regressions/npy/shape-product-overflow"
+        );
+        let bytes = std::fs::read(path).unwrap();
+        let e = declared_shape(&bytes[..]).unwrap_err();
+        assert!(e.contains("more values than can be counted"), "{e}");
+        // Worked by hand: 2^32 * 2^32 = 2^64 does not fit; 2^32 * 2^31 = 2^63 does; a zero
+        // size leaves the others to multiply on their own (strides still use them).
+        assert!(check_shape(b"{'shape': (4294967296, 4294967296)}").is_err());
+        assert!(check_shape(b"{'shape': (4294967296, 2147483648)}").is_ok());
+        assert!(check_shape(b"{'shape': (0, 4294967296, 4294967296)}").is_err());
+        assert!(check_shape(b"{'shape': (0, 3), 'descr': '<f4'}").is_ok());
+        assert!(check_shape(b"{\"shape\": [99999999999999999999]}").is_err());
     }
 
     #[test]
