@@ -78,7 +78,8 @@ fn check_nesting(text: &[u8]) -> Result<(), String> {
 /// npyz multiplies them unchecked (the count of values, and each axis' stride), which panics
 /// in a debug build and wraps silently in a release build (found by fuzzing in CI,
 /// `fuzz/regressions/npy/shape-product-overflow`). Sizes that are not plain decimal numbers
-/// are left to npyz's own parser to refuse.
+/// are refused too: npyz evaluates forms such as `0+10000000029`, which hid an overflow from
+/// a check of digits alone (`fuzz/regressions/npy/shape-size-expression`).
 fn check_shape(text: &[u8]) -> Result<(), String> {
     let text = String::from_utf8_lossy(text);
     let mut rest = text.as_ref();
@@ -95,8 +96,13 @@ fn check_shape(text: &[u8]) -> Result<(), String> {
         let body = &body[..body.find([')', ']']).unwrap_or(body.len())];
         let mut product = 1u64;
         for size in body.split(',').map(str::trim).filter(|t| !t.is_empty()) {
-            if !size.bytes().all(|b| b.is_ascii_digit()) {
-                continue;
+            // NumPy writes plain decimal sizes (Python 2 added an `L`). npyz also evaluates
+            // other forms such as `1+2`, so anything else is refused here, not left to it.
+            let size = size.strip_suffix('L').unwrap_or(size);
+            if size.is_empty() || !size.bytes().all(|b| b.is_ascii_digit()) {
+                return Err(format!(
+                    "not a NumPy array: the header's shape ({body}) holds `{size}`, not a whole number"
+                ));
             }
             let n = size.parse::<u64>().ok().filter(|&n| n > 0);
             product = match n {
@@ -151,6 +157,15 @@ mod tests {
         assert!(check_shape(b"{'shape': (0, 4294967296, 4294967296)}").is_err());
         assert!(check_shape(b"{'shape': (0, 3), 'descr': '<f4'}").is_ok());
         assert!(check_shape(b"{\"shape\": [99999999999999999999]}").is_err());
+        // Plain sizes and Python 2's `L` pass; expressions do not.
+        assert!(check_shape(b"{'shape': (3L, 4L), }").is_ok());
+        assert!(check_shape(b"{'shape': (2, 0+10000000029), }").is_err());
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/fuzz/regressions/npy/shape-size-expression"
+        );
+        let e = declared_shape(&std::fs::read(path).unwrap()[..]).unwrap_err();
+        assert!(e.contains("not a whole number"), "{e}");
     }
 
     #[test]
