@@ -5,9 +5,10 @@
 use std::sync::Arc;
 
 use crate::campaign::Campaign;
-use crate::novelty::{self, NoveltyError, NoveltyModel, RoundScores};
+use crate::novelty::{NoveltyModel, RoundScores};
 use crate::progress::Progress;
-use crate::review::{self, Excursion, ExcursionSettings};
+use crate::review::Excursion;
+use crate::workflow::{AnalysisOptions, ScoreSource, WorkflowError, analyse};
 
 /// One excursion: a maximal run of flagged steps, as table rows of the round.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -32,6 +33,8 @@ pub struct RoundSignals {
     pub scores: RoundScores,
     /// Excursions of the round.
     pub excursions: Vec<ExcursionRows>,
+    /// Where the scores came from (decides whether the saved review list fits them).
+    pub source: ScoreSource,
 }
 
 impl std::ops::Deref for RoundSignals {
@@ -100,6 +103,7 @@ impl RoundSignals {
     pub fn from_scores(round: u32, s: RoundScores, excursions: &[Excursion]) -> RoundSignals {
         RoundSignals {
             round,
+            source: ScoreSource::Scored(None),
             scores: s,
             excursions: excursions
                 .iter()
@@ -114,46 +118,31 @@ impl RoundSignals {
     }
 }
 
-/// Scores one round of a campaign (runs on a background thread): reads the round's saved
-/// scores (`countersteer score`) when they match its steps, else builds the novelty model
-/// (unless one is given) and scores every step; then finds the excursions. `Ok(None)` when
-/// cancelled or the round does not exist.
+/// Scores one round of a campaign (runs on a background thread) through the library's
+/// [`analyse`]: the round's saved scores when they still fit the campaign (the one reuse rule
+/// every front-end follows), else scored now with the given model or one built now. `Ok(None)`
+/// when cancelled or the round does not exist.
 pub fn compute(
     campaign: &Campaign,
     model: Option<Arc<NoveltyModel>>,
     round: u32,
     progress: &Progress,
 ) -> Result<Option<Scored>, String> {
-    let Some(r) = campaign.round(round) else {
-        return Ok(None);
-    };
-    let saved = novelty::store::load_scores(&campaign.root, round, &r.steps).ok();
-    let (scores, model, source) = match saved {
-        Some(s) => {
-            let path = novelty::store::scores_path(&campaign.root, round);
-            (s, model, format!("saved scores {}", path.display()))
-        }
-        None => {
-            let model = match model {
-                Some(m) => m,
-                None => match novelty::build_model(campaign, progress) {
-                    Ok(m) => Arc::new(m),
-                    Err(NoveltyError::Cancelled) => return Ok(None),
-                    Err(e) => return Err(e.to_string()),
-                },
-            };
-            match novelty::score_round(&model, campaign, &r.steps, progress) {
-                Ok(s) => (s, Some(model), "scored now".to_string()),
-                Err(NoveltyError::Cancelled) => return Ok(None),
-                Err(e) => return Err(e.to_string()),
-            }
-        }
-    };
-    let found = review::excursions(&r.steps, &scores, &ExcursionSettings::default());
-    let signals = RoundSignals::from_scores(round, scores, &found);
-    Ok(Some(Scored {
+    let options = AnalysisOptions {
         model,
+        ..Default::default()
+    };
+    let a = match analyse(campaign, round, options, progress) {
+        Ok(a) => a,
+        Err(e) if e.is_cancelled() => return Ok(None),
+        Err(WorkflowError::NoRound(_)) => return Ok(None),
+        Err(e) => return Err(e.to_string()),
+    };
+    let mut signals = RoundSignals::from_scores(round, a.scores, &a.excursions);
+    signals.source = a.source.clone();
+    Ok(Some(Scored {
+        model: a.model,
         signals,
-        source,
+        source: a.source.describe(),
     }))
 }

@@ -88,6 +88,7 @@ fn signals(n: usize) -> RoundSignals {
         .collect();
     RoundSignals {
         round: 1,
+        source: Default::default(),
         scores: RoundScores {
             k: 5,
             p_value: novelty.iter().map(|&v| (2.0 - v).clamp(0.0, 1.0)).collect(),

@@ -7,9 +7,7 @@ use clap::{Args, ValueEnum};
 use super::CliError;
 use super::correct::load;
 use super::progress_bar::Bar;
-use crate::consensus::tally;
 use crate::export::{ExportError, ExportOptions, Format, Weighting, export, manifest_path};
-use crate::ledger::read_ledgers;
 use crate::progress::Progress;
 
 /// Merged-set file formats.
@@ -92,8 +90,7 @@ fn options(a: &ExportArgs) -> Result<ExportOptions, CliError> {
 pub fn run(a: ExportArgs) -> Result<(), CliError> {
     let opts = options(&a)?;
     let c = load(&a.dir)?;
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
-    let t = tally(&c, &ledgers);
+    let t = crate::workflow::tally_campaign(&c)?.tally;
     let progress = Progress::new();
     let m = {
         let _bar = Bar::follow(&progress);

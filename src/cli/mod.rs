@@ -126,6 +126,27 @@ impl CliError {
     }
 }
 
+/// A ledger error is a usage error (exit 2) in every command: a held lock, a bad annotator
+/// name, a ledger that cannot be read.
+impl From<crate::ledger::LedgerError> for CliError {
+    fn from(e: crate::ledger::LedgerError) -> Self {
+        CliError::usage(e.to_string())
+    }
+}
+
+/// The pipeline's errors: an unknown round and ledger errors are usage errors (exit 2); a
+/// failure to score is invalid data (exit 1).
+impl From<crate::workflow::WorkflowError> for CliError {
+    fn from(e: crate::workflow::WorkflowError) -> Self {
+        use crate::workflow::WorkflowError as W;
+        match e {
+            W::NoRound(_) => CliError::usage(e.to_string()),
+            W::Novelty(_) => CliError::invalid(e.to_string()),
+            W::Ledger(l) => l.into(),
+        }
+    }
+}
+
 /// The default campaign folder argument help.
 pub fn campaign_dir_help() -> &'static str {
     "campaign folder (holds campaign.json)"

@@ -5,14 +5,14 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::CliError;
-use super::score::{build_and_score, load};
+use super::progress_bar::Bar;
+use super::score::load;
 use crate::campaign::{Campaign, StepTable};
-use crate::ledger::read_ledgers;
 use crate::novelty::RoundScores;
-use crate::novelty::store::{load_scores, save_scores, scores_path};
-use crate::review::sitting::judgements;
+use crate::progress::Progress;
 use crate::review::store::save_review_list;
-use crate::review::{PlanSettings, ReviewList, plan, states_of_rows};
+use crate::review::{DEFAULT_BUDGET, PlanSettings, ReviewList, plan, states_of_rows};
+use crate::workflow::{AnalysisOptions, ScoreSource, analyse, tally_campaign};
 
 /// Arguments of `plan`.
 #[derive(Debug, Args)]
@@ -23,7 +23,7 @@ pub struct PlanArgs {
     #[arg(long)]
     pub round: u32,
     /// Most steps on the list.
-    #[arg(long, default_value_t = 50)]
+    #[arg(long, default_value_t = DEFAULT_BUDGET)]
     pub budget: usize,
     /// Fewest steps between two entries of one episode.
     #[arg(long, default_value_t = 10)]
@@ -43,26 +43,25 @@ pub struct PlanArgs {
     pub no_fill: bool,
 }
 
-fn scores_for(c: &Campaign, a: &PlanArgs, steps: &StepTable) -> Result<RoundScores, CliError> {
-    if !a.rescore && scores_path(&c.root, a.round).is_file() {
-        match load_scores(&c.root, a.round, steps) {
-            Ok(s)
-                if s.k == c.file.novelty.k.min(c.demonstrations.len())
-                    && s.alpha == c.file.novelty.alpha =>
-            {
-                eprintln!(
-                    "using saved scores in {}",
-                    scores_path(&c.root, a.round).display()
-                );
-                return Ok(s);
-            }
-            Ok(_) => eprintln!("saved scores were made with other novelty settings; scoring again"),
-            Err(e) => eprintln!("{e}; scoring again"),
-        }
+fn analysis_for(c: &Campaign, a: &PlanArgs) -> Result<RoundScores, CliError> {
+    let options = AnalysisOptions {
+        rescore: a.rescore,
+        save: true,
+        ..Default::default()
+    };
+    let progress = Progress::new();
+    let analysis = {
+        let _bar = Bar::follow(&progress);
+        analyse(c, a.round, options, &progress)
     }
-    let (_, s) = build_and_score(c, a.round)?;
-    save_scores(&c.root, a.round, steps, &s).map_err(|e| CliError::invalid(e.to_string()))?;
-    Ok(s)
+    .map_err(CliError::from)?;
+    if let Some(why) = &analysis.stale {
+        eprintln!("{why}; scoring again");
+    }
+    if let ScoreSource::Saved(p) = &analysis.source {
+        eprintln!("using saved scores in {}", p.display());
+    }
+    Ok(analysis.scores)
 }
 
 /// Runs `plan`.
@@ -75,7 +74,7 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         .round(a.round)
         .ok_or_else(|| CliError::usage(format!("no round {} in rounds/", a.round)))?
         .steps;
-    let scores = scores_for(&c, &a, steps)?;
+    let scores = analysis_for(&c, &a)?;
     let settings = PlanSettings {
         budget: a.budget,
         min_gap: a.min_gap,
@@ -102,15 +101,8 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
 
 /// Rows of the round with a standing verdict in any annotator's ledger, each once.
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>, CliError> {
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::invalid(e.to_string()))?;
-    let mut rows: Vec<usize> = ledgers
-        .iter()
-        .flat_map(|l| judgements(steps, round, &l.records))
-        .map(|j| j.row)
-        .collect();
-    rows.sort_unstable();
-    rows.dedup();
-    Ok(rows)
+    let ledgers = tally_campaign(c)?.ledgers;
+    Ok(crate::workflow::judged_rows(steps, round, &ledgers, None))
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {

@@ -7,8 +7,7 @@ use clap::Args;
 use super::CliError;
 use super::correct::load;
 use crate::campaign::Spec;
-use crate::consensus::{ChannelAgreement, Judged, StepConsensus, Tally, tally};
-use crate::ledger::read_ledgers;
+use crate::consensus::{ChannelAgreement, Judged, StepConsensus, Tally};
 
 /// Arguments of `tally`.
 #[derive(Debug, Args)]
@@ -110,8 +109,7 @@ fn print_set_apart(t: &Tally) {
 /// Runs `tally`.
 pub fn run(a: TallyArgs) -> Result<(), CliError> {
     let c = load(&a.dir)?;
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
-    let t = tally(&c, &ledgers);
+    let crate::workflow::Tallied { ledgers, tally: t } = crate::workflow::tally_campaign(&c)?;
     let who: Vec<String> = t
         .ledgers
         .iter()

@@ -18,6 +18,7 @@ mod fingerprint;
 mod lock;
 mod read;
 mod record;
+mod standing;
 mod store;
 mod time;
 
@@ -28,6 +29,7 @@ pub use read::{
     read_ledgers, sha256_hex,
 };
 pub use record::{ActionValue, Correction, Entry, Record, Retraction, Verdict};
+pub use standing::{last_standing, retracted, standing, standing_of};
 pub use store::{Ledger, OpenReport, SetAside};
 pub use time::utc_timestamp;
 

@@ -46,3 +46,4 @@ mod ui_sitting;
 mod window_kit;
 #[cfg(feature = "gui")]
 mod workbench;
+mod workflow;
