@@ -91,6 +91,7 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
     let opts = options(&a)?;
     let c = load(&a.dir)?;
     let t = crate::workflow::tally_campaign(&c)?.tally;
+    super::correct::warn_skipped_ledgers(&c.root);
     let progress = Progress::new();
     let m = {
         let _bar = Bar::follow(&progress);
@@ -120,6 +121,5 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         );
     }
     println!("manifest: {}", manifest_path(&a.out).display());
-    println!("caution: {}", m.safety);
     Ok(())
 }

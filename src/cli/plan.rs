@@ -102,6 +102,7 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
 /// Rows of the round with a standing verdict in any annotator's ledger, each once.
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>, CliError> {
     let ledgers = tally_campaign(c)?.ledgers;
+    super::correct::warn_skipped_ledgers(&c.root);
     Ok(crate::workflow::judged_rows(steps, round, &ledgers, None))
 }
 

@@ -110,6 +110,7 @@ fn print_set_apart(t: &Tally) {
 pub fn run(a: TallyArgs) -> Result<(), CliError> {
     let c = load(&a.dir)?;
     let crate::workflow::Tallied { ledgers, tally: t } = crate::workflow::tally_campaign(&c)?;
+    super::correct::warn_skipped_ledgers(&c.root);
     let who: Vec<String> = t
         .ledgers
         .iter()

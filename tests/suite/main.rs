@@ -28,6 +28,7 @@ mod hostile;
 mod krippendorff_fixture;
 mod layering;
 mod ledger_crash;
+mod ledger_guard;
 mod loaders;
 mod long_sitting;
 mod novelty_knn;
@@ -47,3 +48,4 @@ mod window_kit;
 #[cfg(feature = "gui")]
 mod workbench;
 mod workflow;
+mod writes;
