@@ -29,6 +29,8 @@ pub use read::{
     read_ledger, read_ledgers, sha256_hex, skipped_entries,
 };
 pub use record::{ActionValue, Correction, Entry, Record, Retraction, Verdict};
+#[cfg(test)]
+pub(crate) use standing::kit as standing_kit;
 pub use standing::{last_standing, retracted, standing, standing_of};
 pub use store::{Ledger, OpenReport, SetAside};
 pub use time::utc_timestamp;

@@ -58,12 +58,13 @@ pub fn last_standing(records: &[Record]) -> Option<(u64, &Correction)> {
         .find_map(|r| Some((r.seq, r.correction()?)))
 }
 
+/// Records built by hand for tests of the rule and of its users.
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::ledger::{Retraction, Verdict};
+pub(crate) mod kit {
+    use crate::ledger::{Correction, Entry, Record, Retraction, Verdict};
 
-    fn record(seq: u64, entry: Entry) -> Record {
+    /// A record of annotator `ana`.
+    pub(crate) fn record(seq: u64, entry: Entry) -> Record {
         Record {
             seq,
             entry,
@@ -73,7 +74,8 @@ mod tests {
         }
     }
 
-    fn fix(t: i64, verdict: Verdict) -> Entry {
+    /// A correction of step `e` t of round 1.
+    pub(crate) fn fix(t: i64, verdict: Verdict) -> Entry {
         Entry::Correction(Correction {
             round: 1,
             episode: "e".into(),
@@ -84,9 +86,17 @@ mod tests {
         })
     }
 
-    fn undo(seq: u64) -> Entry {
+    /// A retraction of `seq`.
+    pub(crate) fn undo(seq: u64) -> Entry {
         Entry::Retraction(Retraction { retracts: seq })
     }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::kit::{fix, record, undo};
+    use super::*;
+    use crate::ledger::Verdict;
 
     // Worked by hand from the rule in the module documentation.
     #[test]

@@ -374,28 +374,7 @@ impl Sitting {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::ledger::{Correction, Entry, Retraction};
-
-    fn record(seq: u64, entry: Entry) -> Record {
-        Record {
-            seq,
-            entry,
-            annotator: "ana".into(),
-            time: String::new(),
-            tool: String::new(),
-        }
-    }
-
-    fn correction(t: i64, verdict: Verdict) -> Entry {
-        Entry::Correction(Correction {
-            round: 1,
-            episode: "e".into(),
-            t,
-            fingerprint: String::new(),
-            verdict,
-            note: None,
-        })
-    }
+    use crate::ledger::standing_kit::{fix as correction, record, undo};
 
     #[test]
     fn judgements_follow_the_latest_standing_record_in_ledger_order() {
@@ -416,7 +395,7 @@ mod tests {
             record(2, correction(1, Verdict::Unrecoverable)),
             record(3, correction(3, Verdict::Action(vec![]))),
             record(4, correction(4, Verdict::Skip)),
-            record(5, Entry::Retraction(Retraction { retracts: 4 })),
+            record(5, undo(4)),
             record(6, correction(9, Verdict::Skip)),
         ];
         let j = judgements(&steps, 1, &records);
