@@ -10,19 +10,6 @@ use crate::progress::Progress;
 use crate::review::Excursion;
 use crate::workflow::{AnalysisOptions, ScoreSource, WorkflowError, analyse};
 
-/// One excursion: a maximal run of flagged steps, as table rows of the round.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct ExcursionRows {
-    /// Episode index in the round's table.
-    pub episode: usize,
-    /// First flagged row.
-    pub onset: usize,
-    /// Row of the highest novelty.
-    pub peak: usize,
-    /// Last flagged row (inclusive).
-    pub end: usize,
-}
-
 /// Novelty signals for every row of one round's table: the library's [`RoundScores`] (read
 /// through `Deref`, so `signals.novelty` is the scores' vector) and the round's excursions.
 #[derive(Debug, Clone, Default, PartialEq)]
@@ -32,7 +19,7 @@ pub struct RoundSignals {
     /// The library's per-step scores of the round.
     pub scores: RoundScores,
     /// Excursions of the round.
-    pub excursions: Vec<ExcursionRows>,
+    pub excursions: Vec<Excursion>,
     /// Where the scores came from (decides whether the saved review list fits them).
     pub source: ScoreSource,
 }
@@ -69,7 +56,7 @@ impl RoundSignals {
     }
 
     /// Excursions of one episode, in time order.
-    pub fn excursions_of(&self, episode: usize) -> impl Iterator<Item = &ExcursionRows> {
+    pub fn excursions_of(&self, episode: usize) -> impl Iterator<Item = &Excursion> {
         self.excursions.iter().filter(move |e| e.episode == episode)
     }
 }
@@ -105,15 +92,7 @@ impl RoundSignals {
             round,
             source: ScoreSource::Scored(None),
             scores: s,
-            excursions: excursions
-                .iter()
-                .map(|e| ExcursionRows {
-                    episode: e.episode,
-                    onset: e.onset,
-                    peak: e.peak,
-                    end: e.end,
-                })
-                .collect(),
+            excursions: excursions.to_vec(),
         }
     }
 }
