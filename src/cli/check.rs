@@ -5,9 +5,9 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
-use crate::campaign::summary::summarize_campaign;
-use crate::campaign::{LoadOptions, Severity, check_campaign};
-use crate::progress::Progress;
+use countersteer::campaign::summary::summarize_campaign;
+use countersteer::campaign::{LoadOptions, Severity, check_campaign};
+use countersteer::progress::Progress;
 
 /// Arguments of `check`.
 #[derive(Debug, Args)]
@@ -21,7 +21,7 @@ pub struct CheckArgs {
     #[arg(long)]
     pub strict: bool,
     /// Most records one data file may hold; a file with more is refused.
-    #[arg(long, default_value_t = crate::campaign::steps::DEFAULT_RECORD_CAP)]
+    #[arg(long, default_value_t = countersteer::campaign::steps::DEFAULT_RECORD_CAP)]
     pub max_records: usize,
 }
 

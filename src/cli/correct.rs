@@ -6,11 +6,11 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 
 use super::{CliError, campaign_dir};
-use crate::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
-use crate::ledger::{
+use countersteer::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
+use countersteer::ledger::{
     ActionValue, Correction, Entry, Ledger, OpenReport, Record, Verdict, fingerprint,
 };
-use crate::progress::Progress;
+use countersteer::progress::Progress;
 
 /// Arguments of `correct`.
 #[derive(Debug, Args)]
@@ -158,7 +158,7 @@ fn print_open_report(report: &OpenReport) {
 
 /// Prints a warning for every entry of `ledgers/` that is not read as a ledger.
 pub fn warn_skipped_ledgers(root: &Path) {
-    for s in crate::ledger::skipped_entries(root) {
+    for s in countersteer::ledger::skipped_entries(root) {
         eprintln!("warning: {s}");
     }
 }
@@ -199,7 +199,7 @@ fn check_retraction(a: &CorrectArgs, ledger: &Ledger, seq: u64) -> Result<(), Cl
 pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     let root = campaign_dir(dir)?;
     load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
-        if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
+        if let countersteer::campaign::CampaignError::Invalid { problems, .. } = &e {
             for p in problems {
                 eprintln!("{p}");
             }
@@ -228,8 +228,7 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         };
         Ok(step_correction(&a, &c, verdict)?)
     };
-    let (mut ledger, report) =
-        Ledger::open(&c.root, &annotator).map_err(|e| CliError::usage(e.to_string()))?;
+    let (mut ledger, report) = Ledger::open(&c.root, &annotator)?;
     print_open_report(&report);
     warn_skipped_ledgers(&c.root);
     if let Err(seq) = correction {
@@ -239,7 +238,7 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         Ok(corr) => ledger.append(corr),
         Err(seq) => ledger.retract(seq),
     }
-    .map_err(|e| CliError::invalid(e.to_string()))?;
+    .map_err(CliError::from)?;
     println!("{annotator} {} (saved)", describe(spec, &record));
     Ok(())
 }

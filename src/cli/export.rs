@@ -7,8 +7,8 @@ use clap::{Args, ValueEnum};
 use super::CliError;
 use super::correct::load;
 use super::progress_bar::Bar;
-use crate::export::{ExportError, ExportOptions, Format, Weighting, export, manifest_path};
-use crate::progress::Progress;
+use countersteer::export::{ExportError, ExportOptions, Format, Weighting, export, manifest_path};
+use countersteer::progress::Progress;
 
 /// Merged-set file formats.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -90,7 +90,7 @@ fn options(a: &ExportArgs) -> Result<ExportOptions, CliError> {
 pub fn run(a: ExportArgs) -> Result<(), CliError> {
     let opts = options(&a)?;
     let c = load(&a.dir)?;
-    let t = crate::workflow::tally_campaign(&c)?.tally;
+    let t = countersteer::workflow::tally_campaign(&c)?.tally;
     super::correct::warn_skipped_ledgers(&c.root);
     let progress = Progress::new();
     let m = {

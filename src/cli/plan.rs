@@ -7,12 +7,12 @@ use clap::Args;
 use super::CliError;
 use super::progress_bar::Bar;
 use super::score::load;
-use crate::campaign::{Campaign, StepTable};
-use crate::novelty::RoundScores;
-use crate::progress::Progress;
-use crate::review::store::save_review_list;
-use crate::review::{DEFAULT_BUDGET, PlanSettings, ReviewList, plan, states_of_rows};
-use crate::workflow::{AnalysisOptions, ScoreSource, analyse, tally_campaign};
+use countersteer::campaign::{Campaign, StepTable};
+use countersteer::novelty::RoundScores;
+use countersteer::progress::Progress;
+use countersteer::review::store::save_review_list;
+use countersteer::review::{DEFAULT_BUDGET, PlanSettings, ReviewList, plan, states_of_rows};
+use countersteer::workflow::{AnalysisOptions, ScoreSource, analyse, tally_campaign};
 
 /// Arguments of `plan`.
 #[derive(Debug, Args)]
@@ -103,7 +103,9 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>, CliError> {
     let ledgers = tally_campaign(c)?.ledgers;
     super::correct::warn_skipped_ledgers(&c.root);
-    Ok(crate::workflow::judged_rows(steps, round, &ledgers, None))
+    Ok(countersteer::workflow::judged_rows(
+        steps, round, &ledgers, None,
+    ))
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {

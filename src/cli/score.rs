@@ -5,13 +5,13 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 
 use super::{CliError, campaign_dir, progress_bar::Bar};
-use crate::campaign::{Campaign, LoadOptions, load_campaign};
-use crate::novelty::explain::{describe, flagged_shares, top_features};
-use crate::novelty::store::save_scores;
-use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
-use crate::progress::Progress;
-use crate::review::episode_stats;
-use crate::review::{ExcursionSettings, excursions};
+use countersteer::campaign::{Campaign, LoadOptions, load_campaign};
+use countersteer::novelty::explain::{describe, flagged_shares, top_features};
+use countersteer::novelty::store::save_scores;
+use countersteer::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
+use countersteer::progress::Progress;
+use countersteer::review::episode_stats;
+use countersteer::review::{ExcursionSettings, excursions};
 
 /// Arguments of `score`.
 #[derive(Debug, Args)]
@@ -74,7 +74,7 @@ pub fn run(a: ScoreArgs) -> Result<(), CliError> {
 fn print_summary(
     c: &Campaign,
     model: &NoveltyModel,
-    steps: &crate::campaign::StepTable,
+    steps: &countersteer::campaign::StepTable,
     s: &RoundScores,
     worst: usize,
 ) {
@@ -112,7 +112,7 @@ fn print_summary(
     print_worst(steps, s, &ex, worst);
 }
 
-fn count_episodes(ex: &[crate::review::Excursion]) -> usize {
+fn count_episodes(ex: &[countersteer::review::Excursion]) -> usize {
     let mut e: Vec<usize> = ex.iter().map(|x| x.episode).collect();
     e.dedup();
     e.len()
@@ -130,9 +130,9 @@ fn print_features(c: &Campaign, s: &RoundScores) {
 }
 
 fn print_worst(
-    steps: &crate::campaign::StepTable,
+    steps: &countersteer::campaign::StepTable,
     s: &RoundScores,
-    ex: &[crate::review::Excursion],
+    ex: &[countersteer::review::Excursion],
     worst: usize,
 ) {
     let mut eps: Vec<(usize, usize, f32)> = episode_stats(steps, Some(s))

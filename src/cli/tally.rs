@@ -6,8 +6,8 @@ use clap::Args;
 
 use super::CliError;
 use super::correct::load;
-use crate::campaign::Spec;
-use crate::consensus::{ChannelAgreement, Judged, StepConsensus, Tally};
+use countersteer::campaign::Spec;
+use countersteer::consensus::{ChannelAgreement, Judged, StepConsensus, Tally};
 
 /// Arguments of `tally`.
 #[derive(Debug, Args)]
@@ -109,7 +109,8 @@ fn print_set_apart(t: &Tally) {
 /// Runs `tally`.
 pub fn run(a: TallyArgs) -> Result<(), CliError> {
     let c = load(&a.dir)?;
-    let crate::workflow::Tallied { ledgers, tally: t } = crate::workflow::tally_campaign(&c)?;
+    let countersteer::workflow::Tallied { ledgers, tally: t } =
+        countersteer::workflow::tally_campaign(&c)?;
     super::correct::warn_skipped_ledgers(&c.root);
     let who: Vec<String> = t
         .ledgers

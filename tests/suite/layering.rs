@@ -83,3 +83,31 @@ fn the_window_reaches_the_pipeline_only_through_the_workflow() {
         files.len()
     );
 }
+
+/// The command line is the binary's (src/main.rs declares it): the library's public API does
+/// not hold it, and the library never names it.
+#[test]
+fn the_command_line_is_not_part_of_the_library() {
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("src");
+    let lib = std::fs::read_to_string(src.join("lib.rs")).unwrap();
+    let declares = |text: &str| {
+        text.lines()
+            .map(str::trim)
+            .any(|l| l == "mod cli;" || l == "pub mod cli;" || l.starts_with("pub(crate) mod cli"))
+    };
+    assert!(!declares(&lib), "src/lib.rs declares the cli module");
+    let main = std::fs::read_to_string(src.join("main.rs")).unwrap();
+    assert!(
+        declares(&main),
+        "src/main.rs does not declare the cli module"
+    );
+    let mut files = Vec::new();
+    rust_files(&src, &mut files);
+    let library: Vec<_> = files
+        .into_iter()
+        .filter(|p| !p.starts_with(src.join("cli")) && !p.starts_with(src.join("bin")))
+        .filter(|p| !p.ends_with("main.rs"))
+        .collect();
+    let offenders = naming(&library, &["crate::cli", "countersteer::cli"]);
+    assert!(offenders.is_empty(), "{offenders:#?}");
+}

@@ -23,7 +23,6 @@ mod export;
 mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
-mod fuzz_corpus;
 mod hostile;
 mod krippendorff_fixture;
 mod layering;

@@ -160,3 +160,14 @@ fn a_ledger_that_cannot_be_read_exits_2_in_every_command() {
         assert!(err.contains("ana.jsonl"), "{args:?}: {err}");
     }
 }
+
+#[test]
+fn a_ledger_refusing_a_retraction_exits_2_like_every_ledger_error() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let d = dir.path().to_str().unwrap();
+    let out = run(&["correct", d, "--annotator", "ana", "--retract", "7"]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains('7'), "{err}");
+}
