@@ -131,6 +131,38 @@ impl Ledger {
         self.write_entries(entries, &time)
     }
 
+    /// Appends corrections and retractions with one write and one fsync (the bulk path of
+    /// [`super::batch`], which checks the retractions first). Either all are acknowledged
+    /// or, on an error, none is kept on disk.
+    pub(crate) fn append_entries(
+        &mut self,
+        entries: Vec<Entry>,
+    ) -> Result<Vec<Record>, LedgerError> {
+        let time = utc_timestamp();
+        let records: Vec<Record> = entries
+            .into_iter()
+            .enumerate()
+            .map(|(i, entry)| Record {
+                seq: self.next_seq + i as u64,
+                entry,
+                annotator: self.annotator.clone(),
+                time: time.clone(),
+                tool: crate::VERSION.to_string(),
+            })
+            .collect();
+        let bytes: Vec<u8> = records.iter().flat_map(Record::to_line).collect();
+        self.write_whole(&bytes)?;
+        self.len += bytes.len() as u64;
+        self.next_seq += records.len() as u64;
+        for r in &records {
+            if let Entry::Retraction(x) = r.entry {
+                self.retracted.insert(x.retracts);
+            }
+        }
+        self.records.extend(records.iter().cloned());
+        Ok(records)
+    }
+
     /// Retracts an earlier, not yet retracted correction of this ledger (undo).
     pub fn retract(&mut self, seq: u64) -> Result<Record, LedgerError> {
         let is_correction = self
