@@ -11,6 +11,7 @@
 //! detection with deep nearest neighbors").
 
 pub mod conformal;
+pub mod eigen;
 pub mod index;
 pub mod model;
 pub mod query;

@@ -19,6 +19,7 @@ mod conformal;
 mod demo_campaign;
 #[cfg(feature = "gui")]
 mod desk;
+mod eigen_fixture;
 mod export;
 mod export_numpy;
 #[cfg(feature = "gui")]
