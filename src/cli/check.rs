@@ -37,6 +37,7 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         problem_cap: a.max_problems.max(1),
         strict: a.strict,
         record_cap: a.max_records.max(1),
+        decode_frames: true,
     };
     let progress = Progress::new();
     let report = {

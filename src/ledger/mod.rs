@@ -14,7 +14,7 @@
 //!   back to its last whole line; the [`OpenReport`] says so. Intact records are not touched.
 
 mod error;
-mod fingerprint;
+pub mod fingerprint;
 mod lock;
 mod read;
 mod record;
@@ -22,7 +22,7 @@ mod store;
 mod time;
 
 pub use error::{LedgerError, LedgerProblem};
-pub use fingerprint::fingerprint;
+pub use fingerprint::{fingerprint, fingerprint_matches, fingerprint_v1};
 pub use read::{
     AnnotatorLedger, FileStamp, ledger_path, ledger_stamps, parse_ledger, read_ledger,
     read_ledgers, sha256_hex,

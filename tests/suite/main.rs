@@ -24,6 +24,7 @@ mod export;
 mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
+mod folder_rules;
 mod fuzz_corpus;
 mod hostile;
 mod krippendorff_fixture;
