@@ -144,7 +144,7 @@ fn describe(spec: &Spec, r: &Record) -> String {
 
 fn print_open_report(report: &OpenReport) {
     if let Some(a) = &report.set_aside {
-        eprintln!(
+        tell!(
             "note: a torn last line (line {}, {} bytes, left by an interrupted write) was moved to {}",
             a.line,
             a.bytes,
@@ -152,7 +152,7 @@ fn print_open_report(report: &OpenReport) {
         );
     }
     for p in &report.problems {
-        eprintln!("warning: {p} (line left in place and not used)");
+        tell!("warning: {p} (line left in place and not used)");
     }
 }
 
@@ -162,7 +162,7 @@ pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
         if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
             for p in problems {
-                eprintln!("{p}");
+                tell!("{p}");
             }
         }
         CliError::invalid(format!("{}: {e}", root.display()))
@@ -197,6 +197,6 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         Err(seq) => ledger.retract(seq),
     }
     .map_err(|e| CliError::invalid(e.to_string()))?;
-    println!("{annotator} {} (saved)", describe(spec, &record));
+    say!("{annotator} {} (saved)", describe(spec, &record));
     Ok(())
 }

@@ -14,6 +14,7 @@ mod calibration;
 mod cli_corrections;
 #[cfg(feature = "gui")]
 mod cli_gui;
+mod cli_pipes;
 mod cli_score_plan;
 mod conformal;
 mod demo_campaign;
@@ -39,6 +40,7 @@ mod review_plan;
 mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
+mod saved_scores;
 mod shared_folder;
 mod sim_closed_loop;
 mod study;
