@@ -138,28 +138,12 @@ impl Ledger {
         &mut self,
         entries: Vec<Entry>,
     ) -> Result<Vec<Record>, LedgerError> {
-        let time = utc_timestamp();
-        let records: Vec<Record> = entries
-            .into_iter()
-            .enumerate()
-            .map(|(i, entry)| Record {
-                seq: self.next_seq + i as u64,
-                entry,
-                annotator: self.annotator.clone(),
-                time: time.clone(),
-                tool: crate::VERSION.to_string(),
-            })
-            .collect();
-        let bytes: Vec<u8> = records.iter().flat_map(Record::to_line).collect();
-        self.write_whole(&bytes)?;
-        self.len += bytes.len() as u64;
-        self.next_seq += records.len() as u64;
+        let records = self.write_entries(entries, &utc_timestamp())?;
         for r in &records {
             if let Entry::Retraction(x) = r.entry {
                 self.retracted.insert(x.retracts);
             }
         }
-        self.records.extend(records.iter().cloned());
         Ok(records)
     }
 
