@@ -30,6 +30,7 @@ mod layering;
 mod ledger_crash;
 mod loaders;
 mod long_sitting;
+mod notices;
 mod novelty_knn;
 mod plotting;
 mod properties;
