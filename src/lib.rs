@@ -10,6 +10,7 @@ pub mod app;
 pub mod campaign;
 pub mod cli;
 pub mod consensus;
+pub mod durable;
 pub mod export;
 pub mod fuzzing;
 pub mod ledger;

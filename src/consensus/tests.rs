@@ -60,6 +60,7 @@ fn campaign() -> Campaign {
         },
         demonstrations: StepTable::new(2, 2),
         rounds: vec![Round { number: 1, steps }],
+        inputs: Vec::new(),
     }
 }
 
@@ -127,6 +128,7 @@ impl Book {
             incomplete_tail: 0,
             stamp: None,
             sha256: String::new(),
+            bytes: 0,
         }
     }
 }
