@@ -35,6 +35,7 @@ mod ledger_crash;
 mod ledger_guard;
 mod loaders;
 mod long_sitting;
+mod notices;
 mod novelty_knn;
 mod plotting;
 mod properties;
