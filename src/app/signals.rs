@@ -98,8 +98,8 @@ impl RoundSignals {
 }
 
 /// Scores one round of a campaign (runs on a background thread) through the library's
-/// [`analyse`]: the round's saved scores when they still fit the campaign (the one reuse rule
-/// every front-end follows), else scored now with the given model or one built now. `Ok(None)`
+/// [`analyse`]: the round's saved scores when the saved scores' one reuse rule allows, else
+/// scored now with the given model or one built now; then finds the excursions. `Ok(None)`
 /// when cancelled or the round does not exist.
 pub fn compute(
     campaign: &Campaign,
@@ -117,11 +117,20 @@ pub fn compute(
         Err(WorkflowError::NoRound(_)) => return Ok(None),
         Err(e) => return Err(e.to_string()),
     };
+    let mut source = match (&a.source, &a.stale) {
+        (ScoreSource::Scored(_), Some(why)) => format!("scored now ({why})"),
+        (s, _) => s.describe(),
+    };
+    if let (ScoreSource::Scored(_), Some(m)) = (&a.source, &a.model) {
+        for w in m.warnings() {
+            source.push_str(&format!("; warning: {w}"));
+        }
+    }
     let mut signals = RoundSignals::from_scores(round, a.scores, &a.excursions);
-    signals.source = a.source.clone();
+    signals.source = a.source;
     Ok(Some(Scored {
         model: a.model,
         signals,
-        source: a.source.describe(),
+        source,
     }))
 }

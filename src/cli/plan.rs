@@ -55,11 +55,15 @@ fn analysis_for(c: &Campaign, a: &PlanArgs) -> Result<RoundScores, CliError> {
         analyse(c, a.round, options, &progress)
     }
     .map_err(CliError::from)?;
-    if let Some(why) = &analysis.stale {
-        eprintln!("{why}; scoring again");
+    match (&analysis.source, &analysis.stale) {
+        (ScoreSource::Saved(p), _) => tell!("using saved scores in {}", p.display()),
+        (ScoreSource::Scored(_), Some(why)) => tell!("{why}; scoring again"),
+        (ScoreSource::Scored(_), None) => {}
     }
-    if let ScoreSource::Saved(p) = &analysis.source {
-        eprintln!("using saved scores in {}", p.display());
+    if let (ScoreSource::Scored(_), Some(m)) = (&analysis.source, &analysis.model) {
+        for w in m.warnings() {
+            tell!("warning: {w}");
+        }
     }
     Ok(analysis.scores)
 }
@@ -84,18 +88,19 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         ..Default::default()
     };
     let judged = judged_rows(&c, a.round, steps)?;
+    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
+    // Saved before anything is printed: a reader that stops early (`| head`) loses no file.
+    let path = save_review_list(&c.root, a.round, steps, &list)
+        .map_err(|e| CliError::invalid(e.to_string()))?;
     if !judged.is_empty() {
-        println!(
+        say!(
             "{} step(s) of round {} already judged in the ledgers: the list avoids their ground",
             judged.len(),
             a.round
         );
     }
-    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
     print_list(steps, &list);
-    let path = save_review_list(&c.root, a.round, steps, &list)
-        .map_err(|e| CliError::invalid(e.to_string()))?;
-    println!("wrote {}", path.display());
+    say!("wrote {}", path.display());
     Ok(())
 }
 
@@ -109,20 +114,25 @@ fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {
-    println!(
+    say!(
         "review list: {} step(s) chosen from {} candidate(s) ({} in the diversity pool); covering radius {:.3}",
         list.entries.len(),
         list.candidates,
         list.pool,
         list.covering_radius
     );
-    println!(
+    say!(
         "{:>4}  {:<24} {:>7}  {:>8} {:>9} {:>7}  reasons",
-        "#", "episode", "t", "novelty", "p-value", "gap"
+        "#",
+        "episode",
+        "t",
+        "novelty",
+        "p-value",
+        "gap"
     );
     for (i, e) in list.entries.iter().enumerate() {
         let reasons: Vec<&str> = e.reasons.iter().map(|r| r.as_str()).collect();
-        println!(
+        say!(
             "{:>4}  {:<24} {:>7}  {:>8.3} {:>9.4} {:>7.3}  {}",
             i + 1,
             steps.episodes[e.episode].name,

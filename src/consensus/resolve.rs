@@ -4,7 +4,7 @@
 use std::collections::BTreeMap;
 
 use crate::campaign::Campaign;
-use crate::ledger::{AnnotatorLedger, Verdict, fingerprint, standing};
+use crate::ledger::{AnnotatorLedger, Verdict, fingerprint, fingerprint_matches, standing};
 
 /// A verdict in the campaign's terms.
 #[derive(Debug, Clone, PartialEq)]
@@ -90,8 +90,8 @@ pub(crate) fn resolve(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Resol
                 out.unapplied.push(unapplied(reason));
                 continue;
             };
-            let current = fingerprint(&round.steps, row);
-            if current != c.fingerprint {
+            if !fingerprint_matches(&round.steps, row, &c.fingerprint) {
+                let current = fingerprint(&round.steps, row);
                 out.mismatches.push(Mismatch {
                     annotator: l.annotator.clone(),
                     seq,

@@ -62,12 +62,7 @@ impl Projection {
         let rows: Vec<u32> = (0..demos.len() as u32).collect();
         let axes = principal_axes(&demos.states, d, &inv, &rows);
         progress.advance(1);
-        let total: f64 = axes
-            .values
-            .iter()
-            .map(|v| v.max(0.0))
-            .sum::<f64>()
-            .max(f64::MIN_POSITIVE);
+        let total = axes.total.max(f64::MIN_POSITIVE);
         let pick = |r: usize| -> (Vec<f32>, f64) {
             match (axes.values.get(r), axes.vector(r)) {
                 (Some(&val), Some(v)) => {

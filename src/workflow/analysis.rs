@@ -2,14 +2,16 @@
 //! they still fit the campaign, otherwise scored now.
 //!
 //! Every front-end obtains a round's scores here (the window, `countersteer plan`, the study),
-//! so they all follow one reuse rule: [`reusable_scores`].
+//! so they all follow the one reuse rule of the saved scores,
+//! [`crate::novelty::store::reusable_scores`] (the campaign's model settings and the round
+//! data's fingerprint, and the file's checksum).
 
 use std::path::PathBuf;
 use std::sync::Arc;
 
 use super::WorkflowError;
 use crate::campaign::{Campaign, StepTable};
-use crate::novelty::store::{load_scores, save_scores, scores_path};
+use crate::novelty::store::{NotReusable, ScoresKey, reusable_scores, save_scores, scores_path};
 use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
 use crate::progress::Progress;
 use crate::review::{Excursion, ExcursionSettings, excursions};
@@ -37,17 +39,6 @@ impl Default for ScoreSource {
     fn default() -> Self {
         ScoreSource::Scored(None)
     }
-}
-
-/// What the saved scores of a round are worth.
-#[derive(Debug)]
-pub enum Reuse {
-    /// No saved scores.
-    Missing,
-    /// Saved scores that fit the campaign's novelty settings and the round's steps.
-    Fits(Box<RoundScores>),
-    /// Saved scores that cannot be used, and why.
-    Stale(String),
 }
 
 /// How [`analyse`] obtains the scores.
@@ -78,35 +69,6 @@ pub struct Analysis {
     pub stale: Option<String>,
 }
 
-/// The one rule for reusing saved scores: they must exist, match the round's steps, and have
-/// been made with the campaign's novelty settings (k, alpha).
-///
-/// SEAM(saved-score reuse): the saved-scores module gains one function that also checks the
-/// model settings, the round data's fingerprint and a checksum; when it lands, this body is
-/// replaced by a call to it. Every front-end reaches the rule only through here.
-pub fn reusable_scores(campaign: &Campaign, round: u32, steps: &StepTable) -> Reuse {
-    let path = scores_path(&campaign.root, round);
-    if !path.is_file() {
-        return Reuse::Missing;
-    }
-    let s = match load_scores(&campaign.root, round, steps) {
-        Ok(s) => s,
-        Err(e) => return Reuse::Stale(e.to_string()),
-    };
-    let settings = &campaign.file.novelty;
-    let k = settings.k.min(campaign.demonstrations.len());
-    if s.k != k || s.alpha != settings.alpha {
-        return Reuse::Stale(format!(
-            "{}: made with k = {}, alpha = {}; the campaign asks for k = {k}, alpha = {}",
-            path.display(),
-            s.k,
-            s.alpha,
-            settings.alpha
-        ));
-    }
-    Reuse::Fits(Box::new(s))
-}
-
 /// Obtains a round's analysis: the saved scores when [`reusable_scores`] accepts them (and no
 /// rescore is asked), else a novelty model (given or built) scores every step; then the
 /// excursions are found. `Err(WorkflowError::Novelty(NoveltyError::Cancelled))` when cancelled.
@@ -121,17 +83,20 @@ pub fn analyse(
         .ok_or(WorkflowError::NoRound(round))?
         .steps;
     let reuse = if options.rescore {
-        Reuse::Missing
+        Err(NotReusable::Missing)
     } else {
         reusable_scores(campaign, round, steps)
     };
     let (scores, source, model, stale) = match reuse {
-        Reuse::Fits(s) => {
+        Ok(s) => {
             let path = scores_path(&campaign.root, round);
-            (*s, ScoreSource::Saved(path), options.model, None)
+            (s, ScoreSource::Saved(path), options.model, None)
         }
-        Reuse::Missing => score_now(campaign, round, steps, &options, progress, None)?,
-        Reuse::Stale(why) => score_now(campaign, round, steps, &options, progress, Some(why))?,
+        Err(NotReusable::Missing) => score_now(campaign, round, steps, &options, progress, None)?,
+        Err(why) => {
+            let why = Some(why.to_string());
+            score_now(campaign, round, steps, &options, progress, why)?
+        }
     };
     let found = excursions(steps, &scores, &ExcursionSettings::default());
     Ok(Analysis {
@@ -165,7 +130,8 @@ fn score_now(
     };
     let scores = score_round(&model, campaign, steps, progress)?;
     let saved = if options.save {
-        Some(save_scores(&campaign.root, round, steps, &scores)?)
+        let key = ScoresKey::of(campaign, steps);
+        Some(save_scores(&campaign.root, round, steps, &scores, &key)?)
     } else {
         None
     };

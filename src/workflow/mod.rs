@@ -1,8 +1,8 @@
 //! The pipeline's driver: what every front-end (the window, the command line, the study, the
 //! Python module) calls to take a round from its data to the expert's verdicts.
 //!
-//! - [`analysis`]: a round's scores and excursions, reused from the saved scores under one
-//!   rule ([`analysis::reusable_scores`]) or scored now.
+//! - [`analysis`]: a round's scores and excursions, reused from the saved scores under their
+//!   one rule ([`crate::novelty::store::reusable_scores`]) or scored now.
 //! - [`tally`]: the campaign's ledgers read and their consensus.
 //! - [`sitting`]: the review list one annotator works through: the list `countersteer plan`
 //!   saved when fresh, verdicts, undo, the next open entry, the steps others judged.
@@ -11,7 +11,7 @@ pub mod analysis;
 pub mod sitting;
 pub mod tally;
 
-pub use analysis::{Analysis, AnalysisOptions, Reuse, ScoreSource, analyse, reusable_scores};
+pub use analysis::{Analysis, AnalysisOptions, ScoreSource, analyse};
 pub use sitting::{
     Judgement, ListOrigin, Planned, Sitting, SittingEntry, Status, judged_rows, judgements,
     planned_list, verdict_for,
