@@ -124,6 +124,5 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         );
     }
     println!("manifest: {}", manifest_path(&a.out).display());
-    println!("caution: {}", m.safety);
     Ok(())
 }

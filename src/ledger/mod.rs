@@ -13,6 +13,8 @@
 //!   are copied to `ledgers/<annotator>.jsonl.torn-<n>` and fsync'd, only then is the ledger cut
 //!   back to its last whole line; the [`OpenReport`] says so. Intact records are not touched.
 
+pub mod batch;
+mod batch_file;
 mod error;
 mod fingerprint;
 mod lock;
@@ -21,6 +23,8 @@ mod record;
 mod store;
 mod time;
 
+pub use batch::{Batch, BatchError, BatchItem, BatchLine, BatchReport, UnfinishedBatch};
+pub use batch_file::{BATCH_FIELDS, MAX_BATCH_BYTES, read_batch};
 pub use error::{LedgerError, LedgerProblem};
 pub use fingerprint::fingerprint;
 pub use read::{

@@ -11,6 +11,7 @@ mod common;
 
 mod bad_inputs;
 mod calibration;
+mod cli_batch;
 mod cli_corrections;
 #[cfg(feature = "gui")]
 mod cli_gui;
