@@ -153,7 +153,7 @@ fn print_open_report(report: &OpenReport, unfinished: Option<&UnfinishedBatch>) 
         print_unfinished(u);
     }
     if let Some(a) = &report.set_aside {
-        eprintln!(
+        tell!(
             "note: a torn last line (line {}, {} bytes, left by an interrupted write) was moved to {}",
             a.line,
             a.bytes,
@@ -161,7 +161,7 @@ fn print_open_report(report: &OpenReport, unfinished: Option<&UnfinishedBatch>) 
         );
     }
     for p in &report.problems {
-        eprintln!("warning: {p} (line left in place and not used)");
+        tell!("warning: {p} (line left in place and not used)");
     }
 }
 
@@ -210,7 +210,7 @@ pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
         if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
             for p in problems {
-                eprintln!("{p}");
+                tell!("{p}");
             }
         }
         CliError::invalid(format!("{}: {e}", root.display()))
@@ -320,6 +320,6 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         Err(seq) => ledger.retract(seq),
     }
     .map_err(|e| CliError::invalid(e.to_string()))?;
-    println!("{annotator} {} (saved)", describe(spec, &record));
+    say!("{annotator} {} (saved)", describe(spec, &record));
     Ok(())
 }

@@ -349,7 +349,8 @@ impl SeqState {
         let mut s = SeqState {
             corrections: HashSet::new(),
             retracted: HashSet::new(),
-            // No number follows the last one: the write refuses the batch (SeqExhausted).
+            // An exhausted ledger refuses the write itself; the numbers here only tell
+            // which corrections of the batch a later line may retract.
             next: ledger.next_seq().unwrap_or(u64::MAX),
         };
         for r in ledger.records() {
