@@ -9,8 +9,8 @@ use clap::Args;
 use super::{CliError, campaign_dir};
 use crate::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
 use crate::ledger::{
-    ActionValue, BatchError, Correction, Entry, OpenReport, Record, UnfinishedBatch, Verdict,
-    batch, fingerprint, read_batch,
+    ActionValue, BatchError, Correction, Entry, Ledger, OpenReport, Record, UnfinishedBatch,
+    Verdict, batch, fingerprint, read_batch,
 };
 use crate::progress::Progress;
 
@@ -153,7 +153,7 @@ fn print_open_report(report: &OpenReport, unfinished: Option<&UnfinishedBatch>) 
         print_unfinished(u);
     }
     if let Some(a) = &report.set_aside {
-        eprintln!(
+        tell!(
             "note: a torn last line (line {}, {} bytes, left by an interrupted write) was moved to {}",
             a.line,
             a.bytes,
@@ -161,8 +161,47 @@ fn print_open_report(report: &OpenReport, unfinished: Option<&UnfinishedBatch>) 
         );
     }
     for p in &report.problems {
-        eprintln!("warning: {p} (line left in place and not used)");
+        tell!("warning: {p} (line left in place and not used)");
     }
+}
+
+/// Prints a warning for every entry of `ledgers/` that is not read as a ledger.
+pub fn warn_skipped_ledgers(root: &Path) {
+    for s in crate::ledger::skipped_entries(root) {
+        eprintln!("warning: {s}");
+    }
+}
+
+/// Checks that the correction `seq` to be retracted is of the step given (when any of
+/// `--round`, `--episode`, `--t` is given): a mistyped number must not withdraw another
+/// step's correction.
+fn check_retraction(a: &CorrectArgs, ledger: &Ledger, seq: u64) -> Result<(), CliError> {
+    let Some(c) = ledger
+        .records()
+        .iter()
+        .find(|r| r.seq == seq)
+        .and_then(Record::correction)
+    else {
+        return Ok(()); // the ledger refuses it with its own message
+    };
+    let mut wrong = Vec::new();
+    if a.round.is_some_and(|r| r != c.round) {
+        wrong.push(format!("round {}", c.round));
+    }
+    if a.episode.as_ref().is_some_and(|e| *e != c.episode) {
+        wrong.push(format!("episode `{}`", c.episode));
+    }
+    if a.t.is_some_and(|t| t != c.t) {
+        wrong.push(format!("t {}", c.t));
+    }
+    if wrong.is_empty() {
+        return Ok(());
+    }
+    Err(CliError::invalid(format!(
+        "{}: record #{seq} is of {}, not the step given; nothing was written",
+        ledger.path().display(),
+        wrong.join(", ")
+    )))
 }
 
 /// Loads a campaign for a subcommand, printing its problems on failure.
@@ -171,7 +210,7 @@ pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
         if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
             for p in problems {
-                eprintln!("{p}");
+                tell!("{p}");
             }
         }
         CliError::invalid(format!("{}: {e}", root.display()))
@@ -272,11 +311,15 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
     let (mut ledger, report, unfinished) =
         batch::open(&c.root, &annotator).map_err(|e| CliError::usage(e.to_string()))?;
     print_open_report(&report, unfinished.as_ref());
+    warn_skipped_ledgers(&c.root);
+    if let Err(seq) = correction {
+        check_retraction(&a, &ledger, seq)?;
+    }
     let record = match correction {
         Ok(corr) => ledger.append(corr),
         Err(seq) => ledger.retract(seq),
     }
     .map_err(|e| CliError::invalid(e.to_string()))?;
-    println!("{annotator} {} (saved)", describe(spec, &record));
+    say!("{annotator} {} (saved)", describe(spec, &record));
     Ok(())
 }

@@ -1,12 +1,23 @@
 //! The command line: argument parsing and one module per subcommand. Each subcommand is a
 //! thin caller of library functions; errors are printed and mapped to exit codes here.
 
+/// Prints a line to standard output without panicking (see [`out`]).
+macro_rules! say {
+    ($($t:tt)*) => { $crate::cli::out::line(format_args!($($t)*)) };
+}
+
+/// Prints a line to standard error without panicking (see [`out`]).
+macro_rules! tell {
+    ($($t:tt)*) => { $crate::cli::out::note(format_args!($($t)*)) };
+}
+
 mod check;
 mod correct;
 mod demo;
 mod export;
 #[cfg(feature = "gui")]
 mod gui;
+pub mod out;
 mod plan;
 mod progress_bar;
 mod score;
@@ -60,6 +71,13 @@ pub enum Command {
 /// Parses the arguments and runs the program.
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
+    if cli
+        .command
+        .as_ref()
+        .is_some_and(Command::leads_to_a_learner)
+    {
+        print_caution();
+    }
     let result = match cli.command {
         None => no_subcommand(),
         #[cfg(feature = "gui")]
@@ -82,10 +100,32 @@ pub fn main() -> ExitCode {
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("countersteer: {}", e.message);
+            tell!("countersteer: {}", e.message);
             ExitCode::from(e.code)
         }
     }
+}
+
+impl Command {
+    /// Whether the command is a step toward running a learner on real hardware (planning,
+    /// correcting, exporting the next training set, or the demo and study that model it):
+    /// these print the safety caution.
+    pub fn leads_to_a_learner(&self) -> bool {
+        matches!(
+            self,
+            Command::Plan(_)
+                | Command::Correct(_)
+                | Command::Export(_)
+                | Command::Demo(_)
+                | Command::Study(_)
+        )
+    }
+}
+
+/// Prints the safety caution on standard error, as one line (standard output stays the
+/// command's own result).
+pub fn print_caution() {
+    eprintln!("caution: {}", crate::SAFETY_CAUTION);
 }
 
 /// Without a subcommand: the workbench, or (built without the `gui` feature) a usage note.

@@ -1,6 +1,5 @@
 //! `countersteer study DIR`: the labelling-strategy study on the demo scenario.
 
-use std::fs::File;
 use std::path::PathBuf;
 
 use clap::Args;
@@ -79,16 +78,16 @@ pub fn run(a: StudyArgs) -> Result<(), CliError> {
     };
     print_table(&rows);
     let csv = out.join("results.csv");
-    let f = File::create(&csv).map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
-    write_csv(&rows, f).map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
+    crate::durable::write_file(&csv, |w| write_csv(&rows, w))
+        .map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
     let png = out.join("departures.png");
     write_plot(&rows, &png).map_err(|e| CliError::usage(format!("{}: {e}", png.display())))?;
-    println!("wrote {} and {}", csv.display(), png.display());
+    say!("wrote {} and {}", csv.display(), png.display());
     Ok(())
 }
 
 fn print_table(rows: &[ResultRow]) {
-    println!(
+    say!(
         "{:<12} {:>5} {:>7}  {:>22}  {:>22}  {:>22}",
         "strategy",
         "round",
@@ -100,7 +99,7 @@ fn print_table(rows: &[ResultRow]) {
     for s in Strategy::ALL {
         for r in rows.iter().filter(|r| r.strategy == s) {
             let (d, l, c) = (r.departure, r.lateral, r.cost);
-            println!(
+            say!(
                 "{:<12} {:>5} {:>7}  {:>6.3} [{:.3}, {:.3}]  {:>6.3} [{:.3}, {:.3}]  {:>6.2} [{:.2}, {:.2}]",
                 s.name(),
                 r.round,

@@ -351,7 +351,9 @@ impl SeqState {
         let mut s = SeqState {
             corrections: HashSet::new(),
             retracted: HashSet::new(),
-            next: ledger.next_seq(),
+            // An exhausted ledger refuses the write itself; the numbers here only tell
+            // which corrections of the batch a later line may retract.
+            next: ledger.next_seq().unwrap_or(u64::MAX),
         };
         for r in ledger.records() {
             match r.entry {
@@ -380,7 +382,7 @@ impl SeqState {
         if let Entry::Correction(_) = e {
             self.corrections.insert(seq);
         }
-        self.next += 1;
+        self.next = self.next.saturating_add(1);
         seq
     }
 }

@@ -66,6 +66,7 @@ fn campaign(root: &Path) -> Campaign {
             number: 1,
             steps: b.finish(),
         }],
+        inputs: Vec::new(),
     }
 }
 

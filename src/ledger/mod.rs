@@ -16,7 +16,7 @@
 pub mod batch;
 mod batch_file;
 mod error;
-mod fingerprint;
+pub mod fingerprint;
 mod lock;
 mod read;
 mod record;
@@ -26,10 +26,10 @@ mod time;
 pub use batch::{Batch, BatchError, BatchItem, BatchLine, BatchReport, UnfinishedBatch};
 pub use batch_file::{BATCH_FIELDS, MAX_BATCH_BYTES, read_batch};
 pub use error::{LedgerError, LedgerProblem};
-pub use fingerprint::fingerprint;
+pub use fingerprint::{fingerprint, fingerprint_matches, fingerprint_v1};
 pub use read::{
-    AnnotatorLedger, FileStamp, ledger_path, ledger_stamps, parse_ledger, read_ledger,
-    read_ledgers, sha256_hex,
+    AnnotatorLedger, FileStamp, SkippedEntry, ledger_path, ledger_stamps, parse_ledger,
+    read_ledger, read_ledgers, sha256_hex, skipped_entries,
 };
 pub use record::{ActionValue, Correction, Entry, Record, Retraction, Verdict};
 pub use store::{Ledger, OpenReport, SetAside};
