@@ -77,6 +77,7 @@ def figure(path, task, summary, strategies):
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
+    import matplotlib.ticker
 
     panels = sorted({(r["learner"], r["budget"]) for r in summary if r["budget"] != "all"})
     learners = sorted({p[0] for p in panels})
@@ -97,6 +98,7 @@ def figure(path, task, summary, strategies):
                 ax.fill_between(x, lo, hi, alpha=0.15)
             ax.set_title(f"{task.name}: {learner}, budget {budget}", fontsize=9)
             ax.set_xlabel("round")
+            ax.xaxis.set_major_locator(matplotlib.ticker.MaxNLocator(integer=True))
             ax.set_ylabel("success")
             ax.set_ylim(-0.02, 1.02)
     axes[0][0].legend(fontsize=7)

@@ -2,9 +2,7 @@
 
     nice -n 5 .venv/bin/python run.py pendulum [--quick] [--countersteer PATH]
 
-See README.md for the protocol's choices. Robots and vehicles can hurt people: a learner that
-does well here is not thereby safe on a machine; testing follows local regulations and the
-site's safety procedures.
+See README.md for the protocol's choices and the safety caution.
 """
 
 import argparse
@@ -18,9 +16,13 @@ import numpy as np
 import learners
 import report
 from campaign import Campaign
-from tasks import TASKS, rollout
+from tasks import TASKS, check_batch, rollout
 
 STRATEGIES = ("review", "random", "novelty", "dagger")
+
+CAUTION = (
+    "A learner that does well here is not thereby safe on a machine. " + """Robots and vehicles can hurt people. Corrected data does not make a policy safe: a policy trained on it can still fail in ways no review caught. Collecting the next round means running an unproven learner on real hardware: test it in simulation first, have a trained safety operator ready to take over at once, use a tested emergency stop, run at reduced speed, and keep people out of the area. The flags and the review list are not a safety monitor: a step that was not flagged is not thereby safe. Typed corrections were never executed and may not be physically feasible. Local regulations and your site's safety procedures come first: test robots and vehicles under them, with the safeguards they require."""
+)
 
 # Seed blocks, disjoint: demonstrations, round k's rollouts, evaluation, fresh expert episodes.
 DEMO_SEED, ROLLOUT_SEED, EVAL_SEED, FRESH_SEED = 10_000, 20_000, 50_000, 90_000
@@ -140,7 +142,14 @@ def main(argv=None):
     shutil.rmtree(out / "campaigns", ignore_errors=True)
     out.mkdir(parents=True, exist_ok=True)
     started = time.time()
+    print(f"caution: {CAUTION}", file=sys.stderr)
     pool = Envs(task, max(cfg["evals"], cfg["rollouts"], cfg["demos"]))
+    if task.batch is not None:
+        diff, same = check_batch(task, pool.envs, pool.expert, FRESH_SEED - 1 - np.arange(20))
+        print(f"lockstep NumPy step against the environment, 20 expert episodes: largest state "
+              f"difference {diff:.2e}, same success: {same}")
+        if not same or diff > 1e-3:
+            sys.exit("the NumPy copy of the environment's step disagrees with the environment")
     demos = pool.run(DEMO_SEED + np.arange(cfg["demos"]), pool.expert)
     eval_seeds = EVAL_SEED + np.arange(cfg["evals"])
     ctx = dict(task=task, cfg=cfg, pool=pool, exe=exe, out=out, demos=demos,

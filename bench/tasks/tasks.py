@@ -22,6 +22,7 @@ class Task:
     make_expert: Callable  # env -> expert(obs batch) -> action batch
     success_text: str
     success: Callable  # (obs history (T, n, d), terminated (n,), steps (n,)) -> bool (n,)
+    batch: object = None  # lockstep NumPy copy of the environment's step, or None
 
     def make_env(self):
         # The bare environment: the benchmark keeps its own horizon, and the wrappers'
@@ -40,6 +41,51 @@ class Task:
         lo = np.array([c[2] for c in self.channels])
         hi = np.array([c[3] for c in self.channels])
         return np.clip(actions, lo, hi)
+
+
+class PendulumBatch:
+    """Pendulum-v1's step equations (gymnasium's PendulumEnv.step) for many episodes at once."""
+
+    g, m, l, dt, max_speed, max_torque = 10.0, 1.0, 1.0, 0.05, 8.0, 2.0
+
+    def state(self, env):
+        return np.array(env.state, dtype=np.float64)
+
+    def obs(self, s):
+        return np.stack([np.cos(s[:, 0]), np.sin(s[:, 0]), s[:, 1]], axis=1).astype(np.float32)
+
+    def step(self, s, u):
+        th, w = s[:, 0], s[:, 1]
+        u = np.clip(u[:, 0], -self.max_torque, self.max_torque)
+        cost = (((th + np.pi) % (2 * np.pi)) - np.pi) ** 2 + 0.1 * w**2 + 0.001 * u**2
+        w2 = w + (3 * self.g / (2 * self.l) * np.sin(th) + 3.0 / (self.m * self.l**2) * u) * self.dt
+        w2 = np.clip(w2, -self.max_speed, self.max_speed)
+        s2 = np.stack([th + w2 * self.dt, w2], axis=1)
+        return s2, -cost, np.zeros(len(s), dtype=bool)
+
+
+class CarBatch:
+    """MountainCarContinuous-v0's step equations (gymnasium's Continuous_MountainCarEnv.step)
+    for many episodes at once; the state is kept in float32 as the environment keeps it."""
+
+    power, max_speed, min_pos, max_pos, goal = 0.0015, 0.07, -1.2, 0.6, 0.45
+
+    def state(self, env):
+        return np.array(env.state, dtype=np.float64)
+
+    def obs(self, s):
+        return s.astype(np.float32)
+
+    def step(self, s, u):
+        force = np.clip(u[:, 0].astype(np.float32), -1.0, 1.0).astype(np.float64)
+        pos, v = s[:, 0], s[:, 1]
+        v = np.clip(v + force * self.power - 0.0025 * np.cos(3 * pos), -self.max_speed, self.max_speed)
+        pos = np.clip(pos + v, self.min_pos, self.max_pos)
+        v = np.where((pos == self.min_pos) & (v < 0), 0.0, v)
+        done = pos >= self.goal
+        reward = np.where(done, 100.0, 0.0) - 0.1 * force**2
+        s2 = np.stack([pos, v], axis=1).astype(np.float32).astype(np.float64)
+        return s2, reward, done
 
 
 def _pendulum_success(hist, terminated, steps):
@@ -67,6 +113,7 @@ TASKS = {
         make_expert=lambda env: PendulumSwingUp(),
         success_text="upright (|angle| < 0.3 rad) in each of the last 50 of 200 steps",
         success=_pendulum_success,
+        batch=PendulumBatch(),
     ),
     "mountaincar": Task(
         name="mountaincar",
@@ -78,6 +125,7 @@ TASKS = {
         make_expert=lambda env: MountainCarPump(),
         success_text="the car reaches the flag (position >= 0.45) within 300 steps",
         success=_car_success,
+        batch=CarBatch(),
     ),
     "doublependulum": Task(
         name="doublependulum",
@@ -115,11 +163,16 @@ class Rollouts:
     returns: np.ndarray  # (episodes,) float
 
 
-def rollout(task, envs, seeds, policy):
+def rollout(task, envs, seeds, policy, batch=True):
     """Runs one episode per seed with `policy` (obs batch -> action batch), all episodes
-    stepped together and the policy asked once per step for every live episode."""
+    stepped together and the policy asked once per step for every live episode. Episodes
+    start from the environment's own reset; with `batch` and a task that has one, they are
+    stepped by its NumPy copy of the environment's equations (see `check_batch`)."""
     n = len(seeds)
     obs = np.stack([envs[i].reset(seed=int(s))[0] for i, s in enumerate(seeds)]).astype(np.float64)
+    batch = task.batch if batch else None
+    if batch is not None:
+        state = np.stack([batch.state(envs[i]) for i in range(n)])
     alive = np.ones(n, dtype=bool)
     terminated = np.zeros(n, dtype=bool)
     returns = np.zeros(n)
@@ -137,6 +190,14 @@ def rollout(task, envs, seeds, policy):
         out_a.append(act)
         out_e.append(idx)
         out_t.append(np.full(idx.size, t))
+        if batch is not None:
+            state[idx], r, term = task.batch.step(state[idx], act)
+            obs[idx] = task.batch.obs(state[idx])
+            returns[idx] += r
+            steps[idx] += 1
+            terminated[idx] |= term
+            alive[idx] &= ~term
+            continue
         for j, i in enumerate(idx):
             o, r, term, trunc, _ = envs[i].step(act[j].astype(np.float32))
             obs[i] = o
@@ -156,3 +217,14 @@ def rollout(task, envs, seeds, policy):
         success=task.success(hist, terminated, steps),
         returns=returns,
     )
+
+
+def check_batch(task, envs, policy, seeds):
+    """Runs the same episodes through the environment itself and through the task's NumPy
+    copy of its step; returns the largest state difference and whether every success agrees.
+    The benchmark refuses to run when they differ."""
+    a = rollout(task, envs, seeds, policy, batch=False)
+    b = rollout(task, envs, seeds, policy, batch=True)
+    if a.states.shape != b.states.shape:
+        return np.inf, False
+    return float(np.max(np.abs(a.states - b.states))), bool((a.success == b.success).all())
