@@ -8,7 +8,7 @@
 //! episodes not interleaved) and their located problems (record and field) are the loader's,
 //! and the file saved is one the loader has already accepted.
 
-use std::io::{Cursor, Write};
+use std::io::Cursor;
 use std::path::{Path, PathBuf};
 
 use super::error::{CampaignError, ProblemLog, Severity};
@@ -17,7 +17,6 @@ use super::numpy::{NpzSource, read_numpy};
 use super::spec::Spec;
 use super::steps::{StepTable, StepTableBuilder};
 use super::validate::RowChecker;
-use crate::novelty::store::write_atomic;
 use crate::progress::Progress;
 
 /// Steps as arrays, row by row in file order.
@@ -108,8 +107,9 @@ pub fn check_arrays(
 }
 
 /// Saves step arrays as `rounds/<round>/<name>.npz` of the campaign at `root` after checking
-/// them ([`check_arrays`]); written beside its name and renamed, so a reader never sees half
-/// a file. An existing file is never replaced. Returns the path.
+/// them ([`check_arrays`]); written through [`crate::durable`] (beside its name, fsync'd,
+/// renamed), so a reader never sees half a file. An existing file is never replaced: a round
+/// only gains files. Returns the path.
 pub fn save_round_arrays(
     root: &Path,
     round: u32,
@@ -131,15 +131,18 @@ pub fn save_round_arrays(
     }
     let (_, bytes) = check_arrays(a, spec, &rel)?;
     let path = root.join(&rel);
-    if path.exists() {
+    let folder = |path: &Path, e: std::io::Error| CampaignError::Folder {
+        path: path.to_path_buf(),
+        message: e.to_string(),
+    };
+    let dir = rel.parent().unwrap_or(Path::new(""));
+    crate::durable::real_dir(root, dir).map_err(|e| folder(&root.join(dir), e))?;
+    if std::fs::symlink_metadata(&path).is_ok() {
         return Err(CampaignError::Folder {
             path,
             message: "already exists; a saved round file is never replaced".into(),
         });
     }
-    write_atomic(&path, |w| w.write_all(&bytes)).map_err(|e| CampaignError::Folder {
-        path: path.clone(),
-        message: e.to_string(),
-    })?;
+    crate::durable::write_bytes(&path, &bytes).map_err(|e| folder(&path, e))?;
     Ok(path)
 }

@@ -29,7 +29,6 @@
 //! because each search returns its one canonical answer whatever the chain of hints that led
 //! to it (see [`super::query`]).
 
-use std::io::Write;
 use std::ops::Range;
 use std::path::{Path, PathBuf};
 
@@ -41,7 +40,7 @@ use super::conformal::Conformal;
 use super::model::{EpisodeSplit, NoveltyModel};
 use super::scale::feature_scales;
 use super::score::{RoundScores, score_steps};
-use super::store::{ANALYSIS_DIR, write_atomic};
+use super::store::ANALYSIS_DIR;
 use crate::campaign::{ActionChannel, Campaign, Episode, StepTable};
 use crate::progress::Progress;
 
@@ -199,15 +198,18 @@ pub fn encode(model: &NoveltyModel, demos: &StepTable) -> Vec<u8> {
     out
 }
 
-/// Saves a model built from `demos` to `path` atomically (written beside it, then renamed).
+/// Saves a model built from `demos` to `path` durably (through [`crate::durable`]: written
+/// beside it, fsync'd, renamed).
 pub fn save_model(
     path: &Path,
     model: &NoveltyModel,
     demos: &StepTable,
 ) -> Result<(), ModelFileError> {
     let bytes = encode(model, demos);
-    write_atomic(path, |w| w.write_all(&bytes))?;
-    Ok(())
+    crate::durable::write_bytes(path, &bytes).map_err(|e| ModelFileError::Io {
+        path: path.to_path_buf(),
+        message: e.to_string(),
+    })
 }
 
 /// A model file's decoded parts (the index is rebuilt by [`load_model`]).
@@ -392,6 +394,11 @@ pub fn build_and_save(
     progress: &Progress,
 ) -> Result<(NoveltyModel, PathBuf), ModelFileError> {
     let model = super::build_model(c, progress)?;
+    let io = |e: std::io::Error| ModelFileError::Io {
+        path: c.root.join(ANALYSIS_DIR),
+        message: e.to_string(),
+    };
+    crate::durable::real_dir(&c.root, Path::new(ANALYSIS_DIR)).map_err(io)?;
     let path = model_path(&c.root);
     save_model(&path, &model, &c.demonstrations)?;
     Ok((model, path))
