@@ -72,6 +72,8 @@ def score_with_ray(campaign, round: int, n_shards: int, workers: int):
         batch_format="numpy",
         compute=ray.data.ActorPoolStrategy(size=workers),
         num_cpus=1,
+        # One core per actor: the library's own thread pool would otherwise use them all.
+        runtime_env={"env_vars": {"RAYON_NUM_THREADS": "1"}},
     )
     batches = list(scored.iter_batches(batch_size=None, batch_format="numpy"))
     out = {k: np.concatenate([np.asarray(b[k]) for b in batches]) for k in STEP_FIELDS}

@@ -166,6 +166,8 @@ pub fn ledger(e: Ledger) -> PyErr {
         | Ledger::NotSaved { path, .. }
         | Ledger::ChangedOnDisk { path, .. }
         | Ledger::IsLink { path, .. }
+        | Ledger::NotAFile { path, .. }
+        | Ledger::SeqExhausted { path, .. }
         | Ledger::TooLarge { path, .. }
         | Ledger::NoSuchCorrection { path, .. }
         | Ledger::AlreadyRetracted { path, .. } => path_place(path),
