@@ -34,5 +34,10 @@ safety monitor: a step that was not flagged is not thereby safe. Typed correctio
 executed and may not be physically feasible. Local regulations and your site's safety \
 procedures come first: test robots and vehicles under them, with the safeguards they require.";
 
+/// The notices of the works by others built into the program (the DejaVu Sans font, the
+/// cividis colour table), as their licences ask; the file THIRD-PARTY-NOTICES, compiled in so
+/// that it travels with every binary. The window's help shows it.
+pub const THIRD_PARTY_NOTICES: &str = include_str!("../THIRD-PARTY-NOTICES");
+
 /// The tool's version, written into ledgers and manifests.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

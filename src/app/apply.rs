@@ -290,6 +290,10 @@ impl Workbench {
         use crate::review::Status;
         match c {
             Command::SaveAction => self.give_verdict(Status::Corrected),
+            Command::SaveSuggestion => {
+                self.take(false);
+                self.give_verdict(Status::Corrected);
+            }
             Command::Skip => self.give_verdict(Status::Skipped),
             Command::Unrecoverable => self.give_verdict(Status::Unrecoverable),
             Command::Undo => self.undo(),

@@ -126,7 +126,7 @@ pub fn strip_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) 
 
 fn controls_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     ui.horizontal(|ui| {
-        let play = if wb.playing() { "Pause" } else { "Play" };
+        let play = if wb.playing() { "Hold" } else { "Play" };
         if ui.button(play).clicked() {
             cmds.push(Command::TogglePlay);
         }
