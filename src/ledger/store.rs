@@ -269,11 +269,12 @@ impl Ledger {
     /// This annotator's standing record for a step: the latest correction of it that is not
     /// retracted.
     pub fn standing(&self, round: u32, episode: &str, t: i64) -> Option<&Record> {
-        self.records.iter().rev().find(|r| {
-            r.correction()
-                .is_some_and(|c| c.round == round && c.episode == episode && c.t == t)
-                && !self.retracted.contains(&r.seq)
-        })
+        super::standing::standing_of(&self.records, round, episode, t)
+    }
+
+    /// The correction an undo takes back (see [`super::last_standing`]).
+    pub fn last_standing(&self) -> Option<(u64, &super::Correction)> {
+        super::standing::last_standing(&self.records)
     }
 
     /// True when the correction with this sequence number was retracted.
