@@ -54,20 +54,21 @@ fn the_window_scores_again_when_the_saved_scores_have_another_alpha() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
-    set_alpha(dir.path(), 0.01);
+    // 0.05: above the smallest alpha this campaign's calibration can resolve.
+    set_alpha(dir.path(), 0.05);
     let c = load_campaign(dir.path(), &LoadOptions::default(), &Progress::new()).unwrap();
     let scored = countersteer::app::signals::compute(&c, None, 1, &Progress::new())
         .unwrap()
         .unwrap();
     let s = &scored.signals;
     assert_eq!(
-        s.alpha, 0.01,
+        s.alpha, 0.05,
         "flags at the campaign's alpha ({})",
         scored.source
     );
     // The flag rule of the saved-scores format: flagged = p-value <= alpha.
     for (p, f) in s.p_value.iter().zip(&s.flagged) {
-        assert_eq!(*f, f64::from(*p) <= 0.01, "p = {p}");
+        assert_eq!(*f, f64::from(*p) <= 0.05, "p = {p}");
     }
 }
 
