@@ -54,6 +54,7 @@ fn the_window_scores_again_when_the_saved_scores_have_another_alpha() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
+    // 0.05: above the smallest alpha this campaign's calibration can resolve.
     set_alpha(dir.path(), 0.05);
     let c = load_campaign(dir.path(), &LoadOptions::default(), &Progress::new()).unwrap();
     let scored = countersteer::app::signals::compute(&c, None, 1, &Progress::new())
