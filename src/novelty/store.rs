@@ -112,8 +112,27 @@ pub fn save_scores(
     key: &ScoresKey,
 ) -> Result<PathBuf, NoveltyError> {
     let path = scores_path(root, round);
-    write_atomic(&path, |w| write_npz(steps, s, key, w))?;
+    write_atomic(&path, |w| write_npz(steps, s, key, w)).map_err(|e| match e {
+        NoveltyError::Store { message, .. } if is_full(&message) => store_err(
+            &path,
+            "not saved: the disk is full (or a file size limit was reached); the scores \
+             computed are lost, any earlier scores file is unchanged",
+        ),
+        e => e,
+    })?;
     Ok(path)
+}
+
+/// Whether an error message is the operating system's "no space" or "file too large".
+fn is_full(message: &str) -> bool {
+    [
+        std::io::Error::from(std::io::ErrorKind::StorageFull),
+        std::io::Error::from(std::io::ErrorKind::FileTooLarge),
+        std::io::Error::from_raw_os_error(28),
+        std::io::Error::from_raw_os_error(27),
+    ]
+    .iter()
+    .any(|e| message.contains(&e.to_string()))
 }
 
 fn put<T: npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(

@@ -34,6 +34,7 @@ mod ledger_crash;
 mod loaders;
 mod long_sitting;
 mod novelty_knn;
+mod numpy_memory;
 mod plotting;
 mod properties;
 mod review_plan;
