@@ -31,7 +31,7 @@
 //! member's CRC-32) holds.
 
 use std::fs::File;
-use std::io::{BufWriter, Write};
+use std::io::{BufWriter, Read, Seek, Write};
 use std::path::{Path, PathBuf};
 
 use crate::campaign::npz::NpzWriter;
@@ -215,12 +215,12 @@ fn checksum(t: &[i64], s: &RoundScores, key: &ScoresKey) -> String {
         .collect()
 }
 
-struct Reader {
-    src: NpzSource,
+struct Reader<R: Read + Seek> {
+    src: NpzSource<R>,
     path: PathBuf,
 }
 
-impl Reader {
+impl<R: Read + Seek> Reader<R> {
     fn array(&mut self, name: &str, shape: &[u64]) -> Result<Array, NoveltyError> {
         let a = self
             .src
@@ -279,7 +279,24 @@ pub fn load_scores(
 ) -> Result<(RoundScores, ScoresKey), NoveltyError> {
     let path = scores_path(root, round);
     let src = NpzSource::open(&path).map_err(|e| store_err(&path, e))?;
-    let mut r = Reader { src, path };
+    read_saved(Reader { src, path }, steps)
+}
+
+/// Like [`load_scores`], from the bytes of a scores archive in any seekable reader (errors
+/// name the file `scores.npz`).
+pub fn load_scores_from<R: Read + Seek>(
+    r: R,
+    steps: &StepTable,
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
+    let path = PathBuf::from(SCORES_FILE);
+    let src = NpzSource::new(r).map_err(|e| store_err(&path, e))?;
+    read_saved(Reader { src, path }, steps)
+}
+
+fn read_saved<R: Read + Seek>(
+    mut r: Reader<R>,
+    steps: &StepTable,
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
     let scores = read_scores(&mut r, steps)?;
     if r.src
         .shape("checksum")
@@ -346,7 +363,10 @@ pub fn reusable_scores(
     Ok(scores)
 }
 
-fn read_scores(r: &mut Reader, steps: &StepTable) -> Result<RoundScores, NoveltyError> {
+fn read_scores<R: Read + Seek>(
+    r: &mut Reader<R>,
+    steps: &StepTable,
+) -> Result<RoundScores, NoveltyError> {
     let n = steps.len() as u64;
     let (d, a) = (steps.state_dim as u64, steps.action_dim as u64);
     let t = r.floats("t", &[n])?;
