@@ -278,6 +278,10 @@ impl Workbench {
             Command::Pause => self.playback.pause(),
             Command::Speed(up) => self.ui.speed = next_speed(self.ui.speed, up),
             Command::ToggleHelp => self.show_help = !self.show_help,
+            Command::PutCautionAway => {
+                let who = self.ui.annotator.clone();
+                self.ui.caution_put_away(&who, &super::state::today());
+            }
             c => self.apply_desk(c),
         }
     }
@@ -286,6 +290,10 @@ impl Workbench {
         use crate::review::Status;
         match c {
             Command::SaveAction => self.give_verdict(Status::Corrected),
+            Command::SaveSuggestion => {
+                self.take(false);
+                self.give_verdict(Status::Corrected);
+            }
             Command::Skip => self.give_verdict(Status::Skipped),
             Command::Unrecoverable => self.give_verdict(Status::Unrecoverable),
             Command::Undo => self.undo(),

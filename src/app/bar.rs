@@ -26,7 +26,10 @@ pub fn bar_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             {
                 cmds.push(Command::AskAnnotator);
             }
-            if ui.button("Export... (Ctrl E)").clicked() {
+            if ui
+                .button(super::keys::caption("Export...", &Command::ToggleExport))
+                .clicked()
+            {
                 cmds.push(Command::ToggleExport);
             }
         });

@@ -34,9 +34,14 @@ pub enum Command {
     Speed(bool),
     /// Show or hide the help overlay.
     ToggleHelp,
+    /// The annotator has read the desk's safety caution: hide it until their next day.
+    PutCautionAway,
     /// Save the desk's action as a correction of the step on the desk, then go to the next
     /// open entry.
     SaveAction,
+    /// Put the suggested action in the desk and save it as a correction, then go to the next
+    /// open entry.
+    SaveSuggestion,
     /// Record `skip` for the step on the desk, then go to the next open entry.
     Skip,
     /// Record `unrecoverable` for the step on the desk, then go to the next open entry.

@@ -3,19 +3,17 @@
 //! channel (slider and exact number, a button per choice, a 2-D pad for two continuous
 //! channels), the verdict buttons with their keys, a note, and the other annotators' verdicts.
 
-use egui::{Color32, Sense, Stroke, pos2, vec2};
+use egui::{Sense, Stroke, pos2, vec2};
 
 use crate::campaign::ChannelKind;
 use crate::review::brief::{ChannelLine, StepBrief, bounds};
 
 use super::commands::{Command, FocusTarget};
 use super::desk_state::exact_text;
+use super::keys::caption;
 use super::workbench::Workbench;
 
-const LEARNER: Color32 = Color32::from_rgb(120, 180, 240);
-const EXPERT: Color32 = Color32::from_rgb(240, 170, 60);
-const STALE: Color32 = Color32::from_rgb(230, 120, 90);
-const ACTIVE: Color32 = Color32::from_rgb(150, 230, 150);
+use super::theme::{ACCENT as ACTIVE, EXPERT, LEARNER, STALE};
 
 /// Draws the desk.
 pub fn desk_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
@@ -33,6 +31,7 @@ pub fn desk_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 fn body_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     ui.heading("Correction desk");
     who_ui(wb, ui, cmds);
+    caution_ui(wb, ui, cmds);
     let Some(b) = wb.desk.brief.clone() else {
         ui.weak("no step selected");
         return;
@@ -71,6 +70,22 @@ fn who_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             cmds.push(Command::AskAnnotator);
         }
     });
+}
+
+/// The safety caution, once per annotator and day, until it is put away.
+fn caution_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
+    if !wb.ui.caution_due(&wb.ui.annotator, &super::state::today()) {
+        return;
+    }
+    egui::Frame::group(ui.style())
+        .stroke(Stroke::new(1.0, super::theme::CAUTION))
+        .show(ui, |ui| {
+            ui.colored_label(super::theme::CAUTION, "Safety caution");
+            ui.label(crate::SAFETY_CAUTION);
+            if ui.button("Read: hide until tomorrow").clicked() {
+                cmds.push(Command::PutCautionAway);
+            }
+        });
 }
 
 fn step_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui) {
@@ -335,7 +350,7 @@ fn verdict_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
         let r = ui
             .add(
                 egui::TextEdit::singleline(&mut wb.desk.note)
-                    .hint_text("optional (M)")
+                    .hint_text(caption("optional", &Command::Focus(FocusTarget::Note)))
                     .desired_width(f32::INFINITY),
             )
             .labelled_by(l.id);
@@ -346,25 +361,26 @@ fn verdict_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     });
     ui.horizontal_wrapped(|ui| {
         let buttons = [
-            ("Save correction (Enter)", Command::SaveAction),
-            ("Skip (S)", Command::Skip),
-            ("Unrecoverable (U)", Command::Unrecoverable),
+            ("Save correction", Command::SaveAction),
+            ("Skip", Command::Skip),
+            ("Unrecoverable", Command::Unrecoverable),
         ];
         for (label, c) in buttons {
-            if ui.button(label).clicked() {
+            if ui.button(caption(label, &c)).clicked() {
                 cmds.push(c);
             }
         }
     });
     ui.horizontal_wrapped(|ui| {
         let buttons = [
-            ("Undo (Ctrl Z)", Command::Undo),
-            ("Next open (N)", Command::NextOpen),
-            ("Suggested (G)", Command::TakeSuggestion),
-            ("Learner's (K)", Command::TakeLearner),
+            ("Undo", Command::Undo),
+            ("Next open", Command::NextOpen),
+            ("Suggested", Command::TakeSuggestion),
+            ("Learner's", Command::TakeLearner),
+            ("Save suggested", Command::SaveSuggestion),
         ];
         for (label, c) in buttons {
-            if ui.button(label).clicked() {
+            if ui.button(caption(label, &c)).clicked() {
                 cmds.push(c);
             }
         }

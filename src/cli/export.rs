@@ -93,6 +93,7 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
     let opts = options(&a)?;
     let c = load(&a.dir)?;
     let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
+    super::correct::warn_skipped_ledgers(&c.root);
     let t = tally(&c, &ledgers);
     let progress = Progress::new();
     let m = {
@@ -125,6 +126,5 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         );
     }
     say!("manifest: {}", manifest_path(&a.out).display());
-    say!("caution: {}", m.safety);
     Ok(())
 }

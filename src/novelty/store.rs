@@ -24,14 +24,14 @@
 //! | `data_fingerprint` | unicode | (1,) | the round's data ([`digest::data_fingerprint`]) |
 //! | `checksum` | unicode | (1,) | SHA-256 (16 hex digits) of both fingerprints and every array above |
 //!
-//! Scores are derived data: scoring again replaces the file (written beside it, then renamed,
-//! so a reader never sees half a file). Nothing the experts entered lives here. Whether saved
-//! scores may stand in for scoring again is decided in one place, [`reusable_scores`]: only
-//! when both fingerprints match the campaign as it is now and the checksum (and every zip
-//! member's CRC-32) holds.
+//! Scores are derived data: scoring again replaces the file through [`crate::durable`]
+//! (written under a temporary name unique to the writer, fsync'd, then renamed), so a reader
+//! never sees half a file and concurrent scorers never share a temporary file; the last
+//! rename wins. Nothing the experts entered lives here. Whether saved scores may stand in for
+//! scoring again is decided in one place, [`reusable_scores`]: only when both fingerprints
+//! match the campaign as it is now and the checksum (and every zip member's CRC-32) holds.
 
-use std::fs::File;
-use std::io::{BufWriter, Read, Seek, Write};
+use std::io::{Read, Seek, Write};
 use std::path::{Path, PathBuf};
 
 use crate::campaign::npz::NpzWriter;
@@ -66,20 +66,11 @@ fn store_err(path: &Path, message: impl std::fmt::Display) -> NoveltyError {
     }
 }
 
-/// Writes `bytes` to `path` atomically (a temporary sibling, flushed, then renamed).
-pub fn write_atomic(
-    path: &Path,
-    write: impl FnOnce(&mut BufWriter<File>) -> std::io::Result<()>,
-) -> Result<(), NoveltyError> {
-    let dir = path.parent().unwrap_or(Path::new("."));
-    std::fs::create_dir_all(dir).map_err(|e| store_err(dir, e))?;
-    let tmp = path.with_extension("partial");
-    let file = File::create(&tmp).map_err(|e| store_err(&tmp, e))?;
-    let mut w = BufWriter::new(file);
-    write(&mut w).map_err(|e| store_err(&tmp, e))?;
-    let file = w.into_inner().map_err(|e| store_err(&tmp, e.error()))?;
-    file.sync_all().map_err(|e| store_err(&tmp, e))?;
-    std::fs::rename(&tmp, path).map_err(|e| store_err(path, e))
+/// Creates `analysis/<round>/` when missing and checks that it and `analysis/` are real
+/// folders inside the campaign (not links out of it); returns it.
+pub fn real_round_dir(root: &Path, round: u32) -> Result<PathBuf, NoveltyError> {
+    let rel = Path::new(ANALYSIS_DIR).join(round.to_string());
+    crate::durable::real_dir(root, &rel).map_err(|e| store_err(&root.join(&rel), e))
 }
 
 /// What saved scores must have been made from to be reused: the novelty model's inputs and
@@ -111,28 +102,28 @@ pub fn save_scores(
     s: &RoundScores,
     key: &ScoresKey,
 ) -> Result<PathBuf, NoveltyError> {
-    let path = scores_path(root, round);
-    write_atomic(&path, |w| write_npz(steps, s, key, w)).map_err(|e| match e {
-        NoveltyError::Store { message, .. } if is_full(&message) => store_err(
-            &path,
-            "not saved: the disk is full (or a file size limit was reached); the scores \
-             computed are lost, any earlier scores file is unchanged",
-        ),
-        e => e,
+    let path = real_round_dir(root, round)?.join(SCORES_FILE);
+    crate::durable::write_file(&path, |w| write_npz(steps, s, key, w)).map_err(|e| {
+        if is_full(&e) {
+            store_err(
+                &path,
+                "not saved: the disk is full (or a file size limit was reached); the scores \
+                 computed are lost, any earlier scores file is unchanged",
+            )
+        } else {
+            store_err(&path, e)
+        }
     })?;
     Ok(path)
 }
 
-/// Whether an error message is the operating system's "no space" or "file too large".
-fn is_full(message: &str) -> bool {
-    [
-        std::io::Error::from(std::io::ErrorKind::StorageFull),
-        std::io::Error::from(std::io::ErrorKind::FileTooLarge),
-        std::io::Error::from_raw_os_error(28),
-        std::io::Error::from_raw_os_error(27),
-    ]
-    .iter()
-    .any(|e| message.contains(&e.to_string()))
+/// Whether a write failed for want of space: no space left (`ENOSPC`) or a file size limit
+/// (`EFBIG`, as `prlimit --fsize` gives).
+fn is_full(e: &std::io::Error) -> bool {
+    matches!(
+        e.kind(),
+        std::io::ErrorKind::StorageFull | std::io::ErrorKind::FileTooLarge
+    )
 }
 
 fn put<T: npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(

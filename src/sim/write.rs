@@ -165,9 +165,7 @@ fn write_file(
     if let Some(parent) = path.parent() {
         fs::create_dir_all(parent).map_err(io)?;
     }
-    let mut w = BufWriter::new(File::create(&path).map_err(io)?);
-    body(&mut w).map_err(io)?;
-    w.flush().map_err(io)
+    crate::durable::write_file(&path, body).map_err(io)
 }
 
 /// A value rounded to 4 decimals: sensor-like resolution and compact files.
@@ -254,7 +252,7 @@ fn write_frames(
     let images: Vec<(String, Result<Vec<u8>, String>)> = jobs
         .par_iter()
         .map(|(rel, lane, pose)| {
-            let img = render_frame(lane, pose, &cfg.expert.car, cfg.frame_size);
+            let img = render_frame(lane, pose, &cfg.expert.car, cfg.frame_width);
             progress.advance(1);
             (rel.clone(), encode_png(&img).map_err(|e| e.to_string()))
         })

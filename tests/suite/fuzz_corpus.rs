@@ -6,8 +6,16 @@ use std::path::Path;
 
 use countersteer::fuzzing::{self, StepFormat};
 
-const TARGETS: [&str; 8] = [
-    "spec", "jsonl", "csv", "npy", "npz", "ledger", "frame", "scores",
+const TARGETS: [&str; 9] = [
+    "spec",
+    "jsonl",
+    "csv",
+    "npy",
+    "npz",
+    "ledger",
+    "ledger_append",
+    "frame",
+    "scores",
 ];
 
 fn run(target: &str, data: &[u8]) {
@@ -19,6 +27,7 @@ fn run(target: &str, data: &[u8]) {
         "scores" => fuzzing::scores(data),
         "npy" => fuzzing::npy(data),
         "ledger" => fuzzing::ledger(data),
+        "ledger_append" => fuzzing::ledger_append(data),
         "frame" => fuzzing::frame(data),
         other => panic!("no fuzz target `{other}`"),
     }

@@ -11,6 +11,7 @@ mod common;
 
 mod bad_inputs;
 mod calibration;
+mod cli_batch;
 mod cli_corrections;
 #[cfg(feature = "gui")]
 mod cli_gui;
@@ -31,8 +32,10 @@ mod hostile;
 mod krippendorff_fixture;
 mod layering;
 mod ledger_crash;
+mod ledger_guard;
 mod loaders;
 mod long_sitting;
+mod notices;
 mod novelty_knn;
 mod numpy_memory;
 mod plotting;
@@ -51,3 +54,4 @@ mod ui_sitting;
 mod window_kit;
 #[cfg(feature = "gui")]
 mod workbench;
+mod writes;

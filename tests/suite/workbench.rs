@@ -64,7 +64,7 @@ fn opens_a_campaign_selects_an_episode_and_moves_the_playhead() {
     for _ in 0..5 {
         h.step();
     }
-    h.get_by_label("Pause").click();
+    h.get_by_label("Hold").click();
     h.step();
     let at = h.state().ui.step;
     assert!((5..=10).contains(&at), "playhead at {at}");
