@@ -5,6 +5,7 @@
 use std::sync::Arc;
 
 use crate::campaign::Campaign;
+use crate::novelty::store::NotReusable;
 use crate::novelty::{self, NoveltyError, NoveltyModel, RoundScores};
 use crate::progress::Progress;
 use crate::review::{self, Excursion, ExcursionSettings};
@@ -115,9 +116,9 @@ impl RoundSignals {
 }
 
 /// Scores one round of a campaign (runs on a background thread): reads the round's saved
-/// scores (`countersteer score`) when they match its steps, else builds the novelty model
-/// (unless one is given) and scores every step; then finds the excursions. `Ok(None)` when
-/// cancelled or the round does not exist.
+/// scores (`countersteer score`) when [`novelty::store::reusable_scores`] allows, else
+/// builds the novelty model (unless one is given) and scores every step; then finds the
+/// excursions. `Ok(None)` when cancelled or the round does not exist.
 pub fn compute(
     campaign: &Campaign,
     model: Option<Arc<NoveltyModel>>,
@@ -127,13 +128,13 @@ pub fn compute(
     let Some(r) = campaign.round(round) else {
         return Ok(None);
     };
-    let saved = novelty::store::load_scores(&campaign.root, round, &r.steps).ok();
+    let saved = novelty::store::reusable_scores(campaign, round, &r.steps);
     let (scores, model, source) = match saved {
-        Some(s) => {
+        Ok(s) => {
             let path = novelty::store::scores_path(&campaign.root, round);
             (s, model, format!("saved scores {}", path.display()))
         }
-        None => {
+        Err(why) => {
             let model = match model {
                 Some(m) => m,
                 None => match novelty::build_model(campaign, progress) {
@@ -142,8 +143,15 @@ pub fn compute(
                     Err(e) => return Err(e.to_string()),
                 },
             };
+            let mut source = match why {
+                NotReusable::Missing => "scored now".to_string(),
+                why => format!("scored now ({why})"),
+            };
+            for w in model.warnings() {
+                source.push_str(&format!("; warning: {w}"));
+            }
             match novelty::score_round(&model, campaign, &r.steps, progress) {
-                Ok(s) => (s, Some(model), "scored now".to_string()),
+                Ok(s) => (s, Some(model), source),
                 Err(NoveltyError::Cancelled) => return Ok(None),
                 Err(e) => return Err(e.to_string()),
             }

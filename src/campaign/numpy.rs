@@ -241,9 +241,12 @@ impl<R: Read + Seek> ArraySource for NpzSource<R> {
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
         let member = npz::member_name(name);
         match self.0.by_name(&member) {
-            Ok(f) => {
+            Ok(mut f) => {
                 let size = f.size();
-                read_array(f, size)
+                let mut counted = Counted(&mut f, 0);
+                let a = read_array(&mut counted, size);
+                let used = counted.1;
+                a.and_then(|a| read_to_end(&mut f, size.saturating_sub(used)).map(|()| a))
                     .map(Some)
                     .map_err(|e| format!("member `{member}`: {e}"))
             }
@@ -262,6 +265,29 @@ impl<R: Read + Seek> ArraySource for NpzSource<R> {
             Err(e) => Err(format!("member `{member}`: {e}")),
         }
     }
+}
+
+/// A reader that counts the bytes read through it.
+struct Counted<R>(R, u64);
+
+impl<R: Read> Read for Counted<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = self.0.read(buf)?;
+        self.1 += n as u64;
+        Ok(n)
+    }
+}
+
+/// Reads what is left of a zip member (`left` bytes by its size in the archive's directory)
+/// up to its end, so that the zip reader checks the member's CRC-32, which it does only on
+/// reaching the end: without this, a damaged member was read as whatever bytes it held.
+fn read_to_end(r: &mut impl Read, left: u64) -> Result<(), String> {
+    let n = std::io::copy(&mut r.take(left.saturating_add(1)), &mut std::io::sink())
+        .map_err(|e| format!("fails its integrity check ({e}): the file is damaged"))?;
+    if n > left {
+        return Err("holds more data than its size in the archive's directory".into());
+    }
+    Ok(())
 }
 
 /// Arrays of `<stem>.<name>.npy` files in one folder of a campaign.

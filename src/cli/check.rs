@@ -7,6 +7,7 @@ use clap::Args;
 use super::{CliError, progress_bar::Bar};
 use crate::campaign::summary::summarize_campaign;
 use crate::campaign::{LoadOptions, Severity, check_campaign};
+use crate::novelty::model::{calibration_count, check_alpha, without_spread};
 use crate::progress::Progress;
 
 /// Arguments of `check`.
@@ -25,6 +26,22 @@ pub struct CheckArgs {
     pub max_records: usize,
 }
 
+/// The novelty settings against the demonstrations: an alpha below what the calibration can
+/// resolve is refused; demonstrations without spread are warned about. Returns the warnings.
+fn novelty_checks(c: &crate::campaign::Campaign) -> Result<usize, CliError> {
+    if let Ok(n) = calibration_count(&c.demonstrations) {
+        check_alpha(c.file.novelty.alpha, n).map_err(|e| CliError::invalid(e.to_string()))?;
+    }
+    if without_spread(&c.demonstrations) {
+        tell!(
+            "warning: demonstrations: every demonstration state is the same; novelty is then \
+             0 only for that state and every other state is flagged"
+        );
+        return Ok(1);
+    }
+    Ok(0)
+}
+
 /// Runs `check`.
 pub fn run(a: CheckArgs) -> Result<(), CliError> {
     if !a.dir.is_dir() {
@@ -37,6 +54,7 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         problem_cap: a.max_problems.max(1),
         strict: a.strict,
         record_cap: a.max_records.max(1),
+        decode_frames: true,
     };
     let progress = Progress::new();
     let report = {
@@ -44,10 +62,10 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         check_campaign(&a.dir, &opts, &progress)
     };
     for p in &report.problems {
-        eprintln!("{p}");
+        tell!("{p}");
     }
     if report.more > 0 {
-        eprintln!(
+        tell!(
             "... and {} more problem(s) not shown (raise --max-problems)",
             report.more
         );
@@ -65,27 +83,37 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
             if report.more > 0 { " shown" } else { "" }
         )));
     };
-    println!("campaign `{}` in {}", c.file.name, a.dir.display());
-    println!(
+    let warnings = warnings + novelty_checks(&c)?;
+    say!("campaign `{}` in {}", c.file.name, a.dir.display());
+    say!(
         "  spec: {} state features, {} action channels",
         c.spec().state_dim(),
         c.spec().action_dim()
     );
     for s in summarize_campaign(&c) {
-        println!(
+        say!(
             "{}: {} episodes, {} steps, {} interventions, {} frames, {} with ensemble samples",
-            s.label, s.episodes, s.steps, s.interventions, s.frames, s.with_samples
+            s.label,
+            s.episodes,
+            s.steps,
+            s.interventions,
+            s.frames,
+            s.with_samples
         );
         for f in &s.features {
-            println!(
+            say!(
                 "    {:<24} {:>12.4} .. {:<12.4} mean {:>10.4} {}",
-                f.name, f.min, f.max, f.mean, f.unit
+                f.name,
+                f.min,
+                f.max,
+                f.mean,
+                f.unit
             );
         }
     }
     if warnings > 0 {
-        println!("{warnings} warning(s) above; the data was used as described in each");
+        say!("{warnings} warning(s) above; the data was used as described in each");
     }
-    println!("ok");
+    say!("ok");
     Ok(())
 }

@@ -104,7 +104,7 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         ExportError::Invalid { .. } => CliError::invalid(e.to_string()),
         _ => CliError::usage(e.to_string()),
     })?;
-    println!(
+    say!(
         "wrote {}: {} rows ({} demonstration, {} correction)",
         a.out.display(),
         m.rows.total,
@@ -112,17 +112,19 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         m.rows.correction
     );
     let x = &m.excluded;
-    println!(
+    say!(
         "left out: {} without a consensus action, {} below --min-agreement, {} with too few annotators",
-        x.no_consensus_action, x.below_agreement, x.too_few_annotators
+        x.no_consensus_action,
+        x.below_agreement,
+        x.too_few_annotators
     );
     if !t.mismatches.is_empty() || !t.unapplied.is_empty() {
-        println!(
+        say!(
             "not applied: {} correction(s) whose step data changed, {} that fit no step (see `countersteer tally`)",
             t.mismatches.len(),
             t.unapplied.len()
         );
     }
-    println!("manifest: {}", manifest_path(&a.out).display());
+    say!("manifest: {}", manifest_path(&a.out).display());
     Ok(())
 }

@@ -1,12 +1,23 @@
 //! The command line: argument parsing and one module per subcommand. Each subcommand is a
 //! thin caller of library functions; errors are printed and mapped to exit codes here.
 
+/// Prints a line to standard output without panicking (see [`out`]).
+macro_rules! say {
+    ($($t:tt)*) => { $crate::cli::out::line(format_args!($($t)*)) };
+}
+
+/// Prints a line to standard error without panicking (see [`out`]).
+macro_rules! tell {
+    ($($t:tt)*) => { $crate::cli::out::note(format_args!($($t)*)) };
+}
+
 mod check;
 mod correct;
 mod demo;
 mod export;
 #[cfg(feature = "gui")]
 mod gui;
+pub mod out;
 mod plan;
 mod progress_bar;
 mod score;
@@ -89,7 +100,7 @@ pub fn main() -> ExitCode {
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("countersteer: {}", e.message);
+            tell!("countersteer: {}", e.message);
             ExitCode::from(e.code)
         }
     }

@@ -9,7 +9,7 @@ use super::score::{build_and_score, load};
 use crate::campaign::{Campaign, StepTable};
 use crate::ledger::read_ledgers;
 use crate::novelty::RoundScores;
-use crate::novelty::store::{load_scores, save_scores, scores_path};
+use crate::novelty::store::{NotReusable, ScoresKey, reusable_scores, save_scores, scores_path};
 use crate::review::sitting::judgements;
 use crate::review::store::save_review_list;
 use crate::review::{PlanSettings, ReviewList, plan, states_of_rows};
@@ -44,24 +44,22 @@ pub struct PlanArgs {
 }
 
 fn scores_for(c: &Campaign, a: &PlanArgs, steps: &StepTable) -> Result<RoundScores, CliError> {
-    if !a.rescore && scores_path(&c.root, a.round).is_file() {
-        match load_scores(&c.root, a.round, steps) {
-            Ok(s)
-                if s.k == c.file.novelty.k.min(c.demonstrations.len())
-                    && s.alpha == c.file.novelty.alpha =>
-            {
-                eprintln!(
+    if !a.rescore {
+        match reusable_scores(c, a.round, steps) {
+            Ok(s) => {
+                tell!(
                     "using saved scores in {}",
                     scores_path(&c.root, a.round).display()
                 );
                 return Ok(s);
             }
-            Ok(_) => eprintln!("saved scores were made with other novelty settings; scoring again"),
-            Err(e) => eprintln!("{e}; scoring again"),
+            Err(NotReusable::Missing) => {}
+            Err(why) => tell!("{why}; scoring again"),
         }
     }
     let (_, s) = build_and_score(c, a.round)?;
-    save_scores(&c.root, a.round, steps, &s).map_err(|e| CliError::invalid(e.to_string()))?;
+    save_scores(&c.root, a.round, steps, &s, &ScoresKey::of(c, steps))
+        .map_err(|e| CliError::invalid(e.to_string()))?;
     Ok(s)
 }
 
@@ -85,18 +83,19 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         ..Default::default()
     };
     let judged = judged_rows(&c, a.round, steps)?;
+    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
+    // Saved before anything is printed: a reader that stops early (`| head`) loses no file.
+    let path = save_review_list(&c.root, a.round, steps, &list)
+        .map_err(|e| CliError::invalid(e.to_string()))?;
     if !judged.is_empty() {
-        println!(
+        say!(
             "{} step(s) of round {} already judged in the ledgers: the list avoids their ground",
             judged.len(),
             a.round
         );
     }
-    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
     print_list(steps, &list);
-    let path = save_review_list(&c.root, a.round, steps, &list)
-        .map_err(|e| CliError::invalid(e.to_string()))?;
-    println!("wrote {}", path.display());
+    say!("wrote {}", path.display());
     Ok(())
 }
 
@@ -115,20 +114,25 @@ fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {
-    println!(
+    say!(
         "review list: {} step(s) chosen from {} candidate(s) ({} in the diversity pool); covering radius {:.3}",
         list.entries.len(),
         list.candidates,
         list.pool,
         list.covering_radius
     );
-    println!(
+    say!(
         "{:>4}  {:<24} {:>7}  {:>8} {:>9} {:>7}  reasons",
-        "#", "episode", "t", "novelty", "p-value", "gap"
+        "#",
+        "episode",
+        "t",
+        "novelty",
+        "p-value",
+        "gap"
     );
     for (i, e) in list.entries.iter().enumerate() {
         let reasons: Vec<&str> = e.reasons.iter().map(|r| r.as_str()).collect();
-        println!(
+        say!(
             "{:>4}  {:<24} {:>7}  {:>8.3} {:>9.4} {:>7.3}  {}",
             i + 1,
             steps.episodes[e.episode].name,

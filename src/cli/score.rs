@@ -6,7 +6,7 @@ use clap::Args;
 
 use super::{CliError, campaign_dir, progress_bar::Bar};
 use crate::campaign::{Campaign, LoadOptions, load_campaign};
-use crate::novelty::store::save_scores;
+use crate::novelty::store::{ScoresKey, save_scores};
 use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
 use crate::progress::Progress;
 use crate::review::{ExcursionSettings, excursions};
@@ -50,6 +50,9 @@ pub fn build_and_score(c: &Campaign, round: u32) -> Result<(NoveltyModel, RoundS
     let _bar = Bar::follow(&progress);
     let err = |e: NoveltyError| CliError::invalid(e.to_string());
     let model = build_model(c, &progress).map_err(err)?;
+    for w in model.warnings() {
+        tell!("warning: {w}");
+    }
     let scores = score_round(&model, c, &r.steps, &progress).map_err(err)?;
     Ok((model, scores))
 }
@@ -62,10 +65,10 @@ pub fn run(a: ScoreArgs) -> Result<(), CliError> {
         .round(a.round)
         .ok_or_else(|| CliError::usage("round vanished"))?
         .steps;
-    let path = save_scores(&c.root, a.round, steps, &scores)
+    let path = save_scores(&c.root, a.round, steps, &scores, &ScoresKey::of(&c, steps))
         .map_err(|e| CliError::invalid(e.to_string()))?;
     print_summary(&c, &model, steps, &scores, a.worst);
-    println!("wrote {}", path.display());
+    say!("wrote {}", path.display());
     Ok(())
 }
 
@@ -79,28 +82,28 @@ fn print_summary(
     let n = s.len();
     let flagged = s.flagged_count();
     let split = model.split();
-    println!(
+    say!(
         "round scored against {} demonstration states ({})",
         c.demonstrations.len(),
         model.index().path()
     );
-    println!(
+    say!(
         "  calibration: {} held-out episodes, {} states; k = {}, alpha = {}",
         split.calibration.len(),
         model.conformal().len(),
         model.k(),
         model.alpha()
     );
-    println!(
+    say!(
         "  flag threshold: novelty > {:.4} (scaled units)",
         s.threshold
     );
-    println!(
+    say!(
         "  steps: {n}, flagged: {flagged} ({:.1}%)",
         100.0 * flagged as f64 / n.max(1) as f64
     );
     let ex = excursions(steps, s, &ExcursionSettings::default());
-    println!(
+    say!(
         "  excursions: {} in {} of {} episodes",
         ex.len(),
         count_episodes(&ex),
@@ -141,7 +144,7 @@ fn print_features(c: &Campaign, s: &RoundScores) {
             )
         })
         .collect();
-    println!(
+    say!(
         "  features that make flagged steps novel: {}",
         top.join(", ")
     );
@@ -168,16 +171,17 @@ fn print_worst(
     if eps.is_empty() {
         return;
     }
-    println!("  episodes with the most flagged steps:");
+    say!("  episodes with the most flagged steps:");
     for (i, f, m) in eps.into_iter().take(worst) {
         let e = &steps.episodes[i];
         let first = ex.iter().find(|x| x.episode == i).map(|x| steps.t[x.onset]);
         let onset = first.map_or("no excursion".to_string(), |t| {
             format!("first excursion at t = {t}")
         });
-        println!(
+        say!(
             "    {:<24} {f:>6} of {:>6} flagged, max novelty {m:.3}, {onset}",
-            e.name, e.len
+            e.name,
+            e.len
         );
     }
 }

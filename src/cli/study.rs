@@ -82,12 +82,12 @@ pub fn run(a: StudyArgs) -> Result<(), CliError> {
         .map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
     let png = out.join("departures.png");
     write_plot(&rows, &png).map_err(|e| CliError::usage(format!("{}: {e}", png.display())))?;
-    println!("wrote {} and {}", csv.display(), png.display());
+    say!("wrote {} and {}", csv.display(), png.display());
     Ok(())
 }
 
 fn print_table(rows: &[ResultRow]) {
-    println!(
+    say!(
         "{:<12} {:>5} {:>7}  {:>22}  {:>22}  {:>22}",
         "strategy",
         "round",
@@ -99,7 +99,7 @@ fn print_table(rows: &[ResultRow]) {
     for s in Strategy::ALL {
         for r in rows.iter().filter(|r| r.strategy == s) {
             let (d, l, c) = (r.departure, r.lateral, r.cost);
-            println!(
+            say!(
                 "{:<12} {:>5} {:>7}  {:>6.3} [{:.3}, {:.3}]  {:>6.3} [{:.3}, {:.3}]  {:>6.2} [{:.2}, {:.2}]",
                 s.name(),
                 r.round,

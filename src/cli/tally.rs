@@ -43,7 +43,7 @@ fn percent(part: usize, whole: usize) -> f64 {
 
 fn print_rounds(t: &Tally) {
     for r in &t.rounds {
-        println!(
+        say!(
             "round {}: {} steps, {} judged ({:.1}%), {} with a consensus action, {} by two or more annotators",
             r.round,
             r.steps,
@@ -52,9 +52,11 @@ fn print_rounds(t: &Tally) {
             r.with_action,
             r.multi
         );
-        println!(
+        say!(
             "  verdicts: {} action, {} skip, {} unrecoverable",
-            r.action_votes, r.skip_votes, r.unrecoverable_votes
+            r.action_votes,
+            r.skip_votes,
+            r.unrecoverable_votes
         );
     }
 }
@@ -94,16 +96,22 @@ fn step_line(spec: &Spec, s: &StepConsensus) -> String {
 
 fn print_set_apart(t: &Tally) {
     for m in &t.mismatches {
-        println!(
+        say!(
             "not applied: {} #{} (round {} `{}` t {}): the step's data changed since (fingerprint {} in the ledger, {} now)",
-            m.annotator, m.seq, m.round, m.episode, m.t, m.recorded, m.current
+            m.annotator,
+            m.seq,
+            m.round,
+            m.episode,
+            m.t,
+            m.recorded,
+            m.current
         );
     }
     for u in &t.unapplied {
-        println!("not applied: {} #{}: {}", u.annotator, u.seq, u.reason);
+        say!("not applied: {} #{}: {}", u.annotator, u.seq, u.reason);
     }
     for p in &t.ledger_problems {
-        println!("ledger problem: {p}");
+        say!("ledger problem: {p}");
     }
 }
 
@@ -118,26 +126,26 @@ pub fn run(a: TallyArgs) -> Result<(), CliError> {
         .iter()
         .map(|l| format!("{} ({} records)", l.annotator, l.records))
         .collect();
-    println!(
+    say!(
         "campaign `{}`: {} annotator(s): {}",
         c.file.name,
         who.len(),
         who.join(", ")
     );
     print_rounds(&t);
-    println!("agreement (Krippendorff's alpha over steps with two or more verdicts):");
+    say!("agreement (Krippendorff's alpha over steps with two or more verdicts):");
     for ch in t.channels.iter().chain([&t.verdicts]) {
-        println!("{}", alpha_line(ch));
+        say!("{}", alpha_line(ch));
     }
     if a.steps {
-        println!("judged steps (annotator=verdict -> consensus):");
+        say!("judged steps (annotator=verdict -> consensus):");
         for s in &t.steps {
-            println!("{}", step_line(c.spec(), s));
+            say!("{}", step_line(c.spec(), s));
         }
     }
     print_set_apart(&t);
     for l in ledgers.iter().filter(|l| l.incomplete_tail > 0) {
-        println!(
+        say!(
             "note: {} ends in {} bytes of an unfinished line (being written now, or torn by a crash; the next `correct` by {} sets it aside)",
             l.path.display(),
             l.incomplete_tail,

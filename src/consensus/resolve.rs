@@ -4,7 +4,9 @@
 use std::collections::{BTreeMap, HashMap, HashSet};
 
 use crate::campaign::Campaign;
-use crate::ledger::{AnnotatorLedger, Correction, Entry, Record, Verdict, fingerprint};
+use crate::ledger::{
+    AnnotatorLedger, Correction, Entry, Record, Verdict, fingerprint, fingerprint_matches,
+};
 
 /// A verdict in the campaign's terms.
 #[derive(Debug, Clone, PartialEq)]
@@ -112,8 +114,8 @@ pub(crate) fn resolve(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Resol
                 out.unapplied.push(unapplied(reason));
                 continue;
             };
-            let current = fingerprint(&round.steps, row);
-            if current != c.fingerprint {
+            if !fingerprint_matches(&round.steps, row, &c.fingerprint) {
+                let current = fingerprint(&round.steps, row);
                 out.mismatches.push(Mismatch {
                     annotator: l.annotator.clone(),
                     seq,

@@ -131,6 +131,22 @@ impl Ledger {
         self.write_entries(entries, &time)
     }
 
+    /// Appends corrections and retractions with one write and one fsync (the bulk path of
+    /// [`super::batch`], which checks the retractions first). Either all are acknowledged
+    /// or, on an error, none is kept on disk.
+    pub(crate) fn append_entries(
+        &mut self,
+        entries: Vec<Entry>,
+    ) -> Result<Vec<Record>, LedgerError> {
+        let records = self.write_entries(entries, &utc_timestamp())?;
+        for r in &records {
+            if let Entry::Retraction(x) = r.entry {
+                self.retracted.insert(x.retracts);
+            }
+        }
+        Ok(records)
+    }
+
     /// Retracts an earlier, not yet retracted correction of this ledger (undo).
     pub fn retract(&mut self, seq: u64) -> Result<Record, LedgerError> {
         let is_correction = self

@@ -11,6 +11,8 @@
 //! detection with deep nearest neighbors").
 
 pub mod conformal;
+pub mod digest;
+pub mod eigen;
 pub mod index;
 pub mod model;
 pub mod query;
@@ -45,6 +47,21 @@ pub enum NoveltyError {
         k: usize,
         /// States in the fit part.
         states: usize,
+    },
+    /// alpha is below the smallest p-value the calibration can give: nothing could be flagged.
+    #[error(
+        "campaign.json novelty.alpha: alpha = {alpha} is below what {n} calibration state(s) can resolve \
+         (the smallest p-value is 1/{n1}); the smallest reachable alpha is {smallest} \
+         (or add demonstration episodes)",
+        n1 = n + 1
+    )]
+    AlphaBelowFloor {
+        /// The campaign's alpha.
+        alpha: f64,
+        /// Calibration states.
+        n: usize,
+        /// The smallest reachable alpha, rounded up to four significant digits.
+        smallest: String,
     },
     /// A feature scale is not a positive number.
     #[error("spec.features: every scale must be a positive number")]

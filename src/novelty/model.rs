@@ -21,7 +21,7 @@
 //! states stays at most alpha (conservative rather than exact).
 
 use super::NoveltyError;
-use super::conformal::Conformal;
+use super::conformal::{Conformal, smallest_alpha};
 use super::index::{Hit, KnnIndex};
 use super::query::seeded_knn;
 use super::scale::feature_scales;
@@ -109,6 +109,7 @@ pub fn build_model_from(
         return Err(NoveltyError::BadScale);
     }
     let split = split_episodes(demos)?;
+    check_alpha(alpha, calibration_rows(demos, &split.calibration).len())?;
     let fit_rows = rows_of(demos, &split.fit);
     if k == 0 || fit_rows.len() < k {
         return Err(NoveltyError::TooFewStates {
@@ -145,6 +146,38 @@ pub fn build_model_from(
         k,
         split,
     })
+}
+
+/// How many calibration states the demonstrations give (see the module documentation).
+pub fn calibration_count(demos: &StepTable) -> Result<usize, NoveltyError> {
+    let split = split_episodes(demos)?;
+    Ok(calibration_rows(demos, &split.calibration).len())
+}
+
+/// Refuses an `alpha` below what `n` calibration states can resolve
+/// ([`smallest_alpha`]), naming the smallest reachable alpha.
+pub fn check_alpha(alpha: f64, n: usize) -> Result<(), NoveltyError> {
+    let floor = smallest_alpha(n);
+    if alpha >= floor {
+        return Ok(());
+    }
+    // Rounded up at the fourth significant digit, so that the value shown is reachable.
+    let decimals = (3 - floor.log10().floor() as i32).max(0) as usize;
+    let up = (floor * 10f64.powi(decimals as i32)).ceil() / 10f64.powi(decimals as i32);
+    Err(NoveltyError::AlphaBelowFloor {
+        alpha,
+        n,
+        smallest: format!("{up:.decimals$}"),
+    })
+}
+
+/// True when every demonstration state is the same (no spread at all): every calibration
+/// novelty is then 0, and any state that differs at all is flagged.
+pub fn without_spread(demos: &StepTable) -> bool {
+    let d = demos.state_dim.max(1);
+    let mut rows = demos.states.chunks_exact(d);
+    let first = rows.next();
+    first.is_some_and(|f| rows.all(|r| r == f))
 }
 
 /// Distance (not squared) of the last hit of a sorted k-neighbour list.
@@ -200,6 +233,22 @@ impl NoveltyModel {
     /// The episode split used for calibration.
     pub fn split(&self) -> &EpisodeSplit {
         &self.split
+    }
+
+    /// Warnings about the calibration, in words: the held-out demonstration states all lie
+    /// at novelty 0 (the demonstrations repeat one state), so the threshold is 0 and every
+    /// state that differs at all is flagged.
+    pub fn warnings(&self) -> Vec<String> {
+        let top = self.conformal.scores().last();
+        if top.is_some_and(|&s| s <= 0.0) {
+            return vec![format!(
+                "every held-out demonstration state has {} exact copies among the others \
+                 (the demonstrations show no spread): the flag threshold is 0 and every state \
+                 that differs at all is flagged",
+                self.k
+            )];
+        }
+        Vec::new()
     }
 
     /// The index over all demonstrations.

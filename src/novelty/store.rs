@@ -20,21 +20,29 @@
 //! | `threshold` | float32 | (1,) | novelty above which steps are flagged |
 //! | `alpha` | float64 | (1,) | flag level |
 //! | `scale` | float32 | (D,) | per-feature scales of the novelty distance |
+//! | `model_fingerprint` | unicode | (1,) | the novelty model's inputs ([`digest::model_fingerprint`]) |
+//! | `data_fingerprint` | unicode | (1,) | the round's data ([`digest::data_fingerprint`]) |
+//! | `checksum` | unicode | (1,) | SHA-256 (16 hex digits) of both fingerprints and every array above |
 //!
 //! Scores are derived data: scoring again replaces the file through [`crate::durable`]
 //! (written under a temporary name unique to the writer, fsync'd, then renamed), so a reader
 //! never sees half a file and concurrent scorers never share a temporary file; the last
-//! rename wins. Nothing the experts entered lives here.
+//! rename wins. Nothing the experts entered lives here. Whether saved scores may stand in for
+//! scoring again is decided in one place, [`reusable_scores`]: only when both fingerprints
+//! match the campaign as it is now and the checksum (and every zip member's CRC-32) holds.
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use crate::campaign::npz::NpzWriter;
 
+use sha2::{Digest, Sha256};
+
 use super::NoveltyError;
+use super::digest;
 use super::score::RoundScores;
-use crate::campaign::StepTable;
 use crate::campaign::numpy::{Array, ArraySource, NpzSource, Values};
+use crate::campaign::{Campaign, StepTable};
 
 /// Folder of derived per-round files.
 pub const ANALYSIS_DIR: &str = "analysis";
@@ -65,15 +73,37 @@ pub fn real_round_dir(root: &Path, round: u32) -> Result<PathBuf, NoveltyError> 
     crate::durable::real_dir(root, &rel).map_err(|e| store_err(&root.join(&rel), e))
 }
 
-/// Saves scores of `steps` to `analysis/<round>/scores.npz` and returns the path.
+/// What saved scores must have been made from to be reused: the novelty model's inputs and
+/// the round's data, as fingerprints.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ScoresKey {
+    /// [`digest::model_fingerprint`] of the campaign.
+    pub model: String,
+    /// [`digest::data_fingerprint`] of the round's steps.
+    pub data: String,
+}
+
+impl ScoresKey {
+    /// The key of a round of a campaign as it is now.
+    pub fn of(c: &Campaign, steps: &StepTable) -> ScoresKey {
+        ScoresKey {
+            model: digest::model_fingerprint(c),
+            data: digest::data_fingerprint(steps),
+        }
+    }
+}
+
+/// Saves scores of `steps` to `analysis/<round>/scores.npz` with their key and checksum, and
+/// returns the path.
 pub fn save_scores(
     root: &Path,
     round: u32,
     steps: &StepTable,
     s: &RoundScores,
+    key: &ScoresKey,
 ) -> Result<PathBuf, NoveltyError> {
     let path = real_round_dir(root, round)?.join(SCORES_FILE);
-    crate::durable::write_file(&path, |w| write_npz(steps, s, w))
+    crate::durable::write_file(&path, |w| write_npz(steps, s, key, w))
         .map_err(|e| store_err(&path, e))?;
     Ok(path)
 }
@@ -91,6 +121,7 @@ fn put<T: npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(
 pub fn write_npz<W: Write + std::io::Seek>(
     steps: &StepTable,
     s: &RoundScores,
+    key: &ScoresKey,
     w: W,
 ) -> std::io::Result<()> {
     let mut npz = NpzWriter::new(w);
@@ -119,7 +150,42 @@ pub fn write_npz<W: Write + std::io::Seek>(
     put(&mut npz, "threshold", &[1], &[s.threshold])?;
     put(&mut npz, "alpha", &[1], &[s.alpha])?;
     put(&mut npz, "scale", &[s.state_dim as u64], &s.scale)?;
+    npz.strings("model_fingerprint", std::iter::once(key.model.as_str()))?;
+    npz.strings("data_fingerprint", std::iter::once(key.data.as_str()))?;
+    let sum = checksum(&steps.t, s, key);
+    npz.strings("checksum", std::iter::once(sum.as_str()))?;
     npz.finish().map(drop)
+}
+
+/// SHA-256 (first 16 hex digits) of the key and every saved array, in the order of the
+/// module documentation, each value little-endian (bools as one byte).
+fn checksum(t: &[i64], s: &RoundScores, key: &ScoresKey) -> String {
+    let mut h = Sha256::new();
+    for part in [&key.model, &key.data] {
+        h.update((part.len() as u64).to_le_bytes());
+        h.update(part.as_bytes());
+    }
+    let floats = |h: &mut Sha256, v: &[f32]| {
+        h.update((v.len() as u64).to_le_bytes());
+        v.iter().for_each(|x| h.update(x.to_le_bytes()));
+    };
+    t.iter().for_each(|x| h.update(x.to_le_bytes()));
+    floats(&mut h, &s.novelty);
+    floats(&mut h, &s.p_value);
+    h.update(s.flagged.iter().map(|&b| u8::from(b)).collect::<Vec<u8>>());
+    floats(&mut h, &s.contributions);
+    floats(&mut h, &s.action_gap);
+    floats(&mut h, &s.neighbour_action);
+    floats(&mut h, &s.neighbour_spread);
+    floats(&mut h, &s.ensemble_spread);
+    s.neighbours.iter().for_each(|x| h.update(x.to_le_bytes()));
+    floats(&mut h, &[s.threshold]);
+    h.update(s.alpha.to_le_bytes());
+    floats(&mut h, &s.scale);
+    h.finalize()[..8]
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
 }
 
 struct Reader {
@@ -164,18 +230,96 @@ impl Reader {
             .map(|x| x as f32)
             .collect())
     }
+
+    fn text(&mut self, name: &str) -> Result<String, NoveltyError> {
+        match self.array(name, &[1])?.values {
+            Values::Text(mut v) => Ok(v.pop().unwrap_or_default()),
+            _ => Err(store_err(
+                &self.path,
+                format!("array `{name}` holds numbers, not text"),
+            )),
+        }
+    }
 }
 
-/// Loads saved scores of a round; refuses a file whose step count or dimensions do not match
-/// `steps` (the round changed since it was scored).
+/// Loads saved scores of a round and the key they were saved with; refuses a file whose step
+/// count or dimensions do not match `steps`, a file without a key (saved by an older
+/// version), a member failing its CRC-32 and scores failing their checksum.
 pub fn load_scores(
     root: &Path,
     round: u32,
     steps: &StepTable,
-) -> Result<RoundScores, NoveltyError> {
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
     let path = scores_path(root, round);
     let src = NpzSource::open(&path).map_err(|e| store_err(&path, e))?;
     let mut r = Reader { src, path };
+    let scores = read_scores(&mut r, steps)?;
+    if r.src
+        .shape("checksum")
+        .map_err(|e| store_err(&r.path, e))?
+        .is_none()
+    {
+        return Err(store_err(
+            &r.path,
+            "no checksum or fingerprints (saved by an older version); score the round again",
+        ));
+    }
+    let key = ScoresKey {
+        model: r.text("model_fingerprint")?,
+        data: r.text("data_fingerprint")?,
+    };
+    if r.text("checksum")? != checksum(&steps.t, &scores, &key) {
+        return Err(store_err(
+            &r.path,
+            "the scores fail their checksum (the file was altered or damaged); score the round again",
+        ));
+    }
+    Ok((scores, key))
+}
+
+/// Why saved scores cannot stand in for scoring the round again.
+#[derive(Debug, thiserror::Error)]
+pub enum NotReusable {
+    /// The round was never scored (or its file was removed).
+    #[error("no saved scores")]
+    Missing,
+    /// The file could not be read, or failed a CRC, its checksum or a shape check.
+    #[error("saved scores not used: {0}")]
+    Unreadable(NoveltyError),
+    /// The novelty settings, spec or demonstrations changed since.
+    #[error(
+        "saved scores not used: they were made with other novelty settings, spec or demonstrations"
+    )]
+    ModelChanged,
+    /// The round's data changed since.
+    #[error("saved scores not used: the round's data changed since it was scored")]
+    DataChanged,
+}
+
+/// The one reuse rule for saved scores (the command line and the window both call it): the
+/// saved scores of `round` when they were made by the campaign's novelty model as it is now
+/// ([`ScoresKey::model`]) over the round's data as it is now ([`ScoresKey::data`]) and pass
+/// every integrity check; otherwise the reason they cannot be reused.
+pub fn reusable_scores(
+    c: &Campaign,
+    round: u32,
+    steps: &StepTable,
+) -> Result<RoundScores, NotReusable> {
+    if !scores_path(&c.root, round).is_file() {
+        return Err(NotReusable::Missing);
+    }
+    let (scores, saved) = load_scores(&c.root, round, steps).map_err(NotReusable::Unreadable)?;
+    let now = ScoresKey::of(c, steps);
+    if saved.model != now.model {
+        return Err(NotReusable::ModelChanged);
+    }
+    if saved.data != now.data {
+        return Err(NotReusable::DataChanged);
+    }
+    Ok(scores)
+}
+
+fn read_scores(r: &mut Reader, steps: &StepTable) -> Result<RoundScores, NoveltyError> {
     let n = steps.len() as u64;
     let (d, a) = (steps.state_dim as u64, steps.action_dim as u64);
     let t = r.floats("t", &[n])?;

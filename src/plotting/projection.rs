@@ -3,6 +3,8 @@
 //! demonstration states.
 
 use crate::campaign::{Spec, StepTable};
+use crate::novelty::eigen::{JACOBI_MAX_DIM, leading_axes};
+use crate::novelty::subspace::{COVARIANCE_SAMPLE_VALUES, MIN_SAMPLE_ROWS};
 use crate::progress::Progress;
 
 /// How the map's axes were chosen.
@@ -60,14 +62,15 @@ impl Projection {
                 None => 1.0,
             })
             .collect();
-        let cov = covariance(demos, &mean, &scale);
+        let (values, vectors, total) = if d <= JACOBI_MAX_DIM {
+            let (values, vectors) = symmetric_eigen(covariance(demos, &mean, &scale), d);
+            let total: f64 = values.iter().map(|v| v.max(0.0)).sum();
+            (values, vectors, total)
+        } else {
+            wide_axes(demos, &mean, &scale)
+        };
         progress.advance(1);
-        let (values, vectors) = symmetric_eigen(cov, d);
-        let total: f64 = values
-            .iter()
-            .map(|v| v.max(0.0))
-            .sum::<f64>()
-            .max(f64::MIN_POSITIVE);
+        let total = total.max(f64::MIN_POSITIVE);
         let pick = |r: usize| -> (Vec<f32>, f64) {
             match (values.get(r), vectors.get(r)) {
                 (Some(&val), Some(vec)) => {
@@ -142,6 +145,37 @@ fn moments(t: &StepTable) -> (Vec<f64>, Vec<f64>) {
     }
     let sd = var.iter().map(|v| (v / n).sqrt()).collect();
     (mean, sd)
+}
+
+/// The two leading axes of wide states (more than [`JACOBI_MAX_DIM`] features), from rows
+/// taken at an even stride, by the bounded routine of [`crate::novelty::eigen`]; with their
+/// eigenvalues and the total variance of the sample.
+fn wide_axes(t: &StepTable, mean: &[f64], scale: &[f64]) -> (Vec<f64>, Vec<Vec<f64>>, f64) {
+    let d = t.state_dim;
+    let cap = (COVARIANCE_SAMPLE_VALUES / d).max(MIN_SAMPLE_ROWS);
+    let stride = t.len().div_ceil(cap).max(1);
+    let mut x = Vec::new();
+    for s in t.states.chunks_exact(d).step_by(stride) {
+        x.extend(
+            s.iter()
+                .zip(mean)
+                .zip(scale)
+                .map(|((&v, m), sc)| (f64::from(v) - m) / sc),
+        );
+    }
+    let lead = leading_axes(&x, x.len() / d, d, 2);
+    let vectors = lead
+        .vectors
+        .chunks_exact(d)
+        .map(|v| {
+            let big = v
+                .iter()
+                .copied()
+                .fold(0.0f64, |m, x| if x.abs() > m.abs() { x } else { m });
+            v.iter().map(|x| if big < 0.0 { -x } else { *x }).collect()
+        })
+        .collect();
+    (lead.values, vectors, lead.total)
 }
 
 /// Covariance (divided by n) of the states after centring by `mean` and dividing by `scale`.

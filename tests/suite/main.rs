@@ -11,18 +11,22 @@ mod common;
 
 mod bad_inputs;
 mod calibration;
+mod cli_batch;
 mod cli_corrections;
 #[cfg(feature = "gui")]
 mod cli_gui;
+mod cli_pipes;
 mod cli_score_plan;
 mod conformal;
 mod demo_campaign;
 #[cfg(feature = "gui")]
 mod desk;
+mod eigen_fixture;
 mod export;
 mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
+mod folder_rules;
 mod fuzz_corpus;
 mod hostile;
 mod krippendorff_fixture;
@@ -39,6 +43,7 @@ mod review_plan;
 mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
+mod saved_scores;
 mod shared_folder;
 mod sim_closed_loop;
 mod study;

@@ -200,6 +200,30 @@ fn the_round_is_scored_in_the_background_and_the_shelf_puts_drift_first() {
 }
 
 #[test]
+fn saved_scores_made_from_other_data_are_not_shown() {
+    use countersteer::campaign::{LoadOptions, load_campaign};
+    use countersteer::novelty::{build_model, score_round, store};
+    use countersteer::progress::Progress;
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let c = load_campaign(dir.path(), &LoadOptions::default(), &Progress::new()).unwrap();
+    let steps = &c.round(1).unwrap().steps;
+    let model = build_model(&c, &Progress::new()).unwrap();
+    let mut scores = score_round(&model, &c, steps, &Progress::new()).unwrap();
+    scores.novelty[0] = 123.0;
+    // Saved under another alpha: the window must score again, not show these flags.
+    let mut key = store::ScoresKey::of(&c, steps);
+    key.model = "0000000000000000".into();
+    store::save_scores(dir.path(), 1, steps, &scores, &key).unwrap();
+    let h = harness(dir.path());
+    let msg = &h.state().status.message;
+    assert!(
+        msg.contains("scored now") && msg.contains("other novelty settings"),
+        "{msg}"
+    );
+}
+
+#[test]
 fn saved_scores_are_read_instead_of_scoring_again() {
     use countersteer::campaign::{LoadOptions, load_campaign};
     use countersteer::novelty::{build_model, score_round, store};
@@ -212,7 +236,8 @@ fn saved_scores_are_read_instead_of_scoring_again() {
     let mut scores = score_round(&model, &c, steps, &Progress::new()).unwrap();
     // Mark the saved file so reading it (not scoring again) is visible.
     scores.novelty[0] = 123.0;
-    store::save_scores(dir.path(), 1, steps, &scores).unwrap();
+    let key = store::ScoresKey::of(&c, steps);
+    store::save_scores(dir.path(), 1, steps, &scores, &key).unwrap();
     let h = harness(dir.path());
     assert!(
         h.state().status.message.contains("saved scores"),
