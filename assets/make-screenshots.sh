@@ -45,20 +45,28 @@ shot() {
 }
 # The desk's safety caution is shown once per annotator and day: the first shot shows it.
 
-# The desk on the review list's first open entry (caution shown), then the review list with
-# the desk after two entries are judged (a skip and the suggestion saved), then export.
+# The desk on the review list's third entry (r2-007 t = 253, which has camera frames), with
+# the safety caution of the annotator's first sitting of the day.
 start --review
+xdotool mousemove 100 263 click 1
 shot desk.png
-xdotool mousemove "${PUT_AWAY_X:-1090}" "${PUT_AWAY_Y:-330}" click 1
+# The caution put away (button position in a 1280x800 window), then two entries judged: a
+# skip and the suggestion saved (Shift Enter); the review list with the desk; the export.
+xdotool mousemove 1030 375 click 1
 sleep 1
 keys s shift+Return
+sleep 3
 shot review-list.png
 keys ctrl+e
 shot export.png
+# The window saves what it remembers (the caution put away) every 30 s.
+sleep 30
 stop
 
-# The workbench: round 2's episodes, the playhead on an excursion onset.
+# The workbench: round 2's most novel episode (top of the shelf), the playhead on its first
+# excursion onset.
 start
-keys Next Next x
+keys F2 Prior Prior Prior Prior Prior Prior Prior Prior Prior Prior Prior Prior Prior Prior \
+    Prior Prior Prior Prior Prior Prior Home x
 shot workbench.png
 stop
