@@ -113,12 +113,21 @@ def fresh_flag_rates(ctx):
                 rest=float(s["flagged"][~early].mean()), overall=float(s["flagged"].mean()))
 
 
+def default_out(task_name, exe):
+    import hashlib
+
+    tag = hashlib.sha256(str(exe).encode()).hexdigest()[:8]
+    return Path(__file__).parent / "results" / f"{task_name}-{tag}"
+
+
 def main(argv=None):
     p = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawTextHelpFormatter)
     p.add_argument("task", choices=sorted(TASKS))
     p.add_argument("--countersteer", default="target/release/countersteer",
                    help="the countersteer binary to measure (default: %(default)s)")
-    p.add_argument("--out", default=None, help="results folder (default: bench/tasks/results/TASK)")
+    p.add_argument("--out", default=None,
+                   help="results folder (default: results/TASK-<tag of the binary's path>, so "
+                        "runs of different binaries never share a folder)")
     p.add_argument("--quick", action="store_true", help="a smoke run: few episodes, one learner")
     p.add_argument("--learners", nargs="*", choices=learners.LEARNERS)
     p.add_argument("--budgets", nargs="*", type=float, default=[0.01, 0.05])
@@ -135,16 +144,18 @@ def main(argv=None):
                    help="print the table and redraw the figure from the results folder's episodes.csv")
     args = p.parse_args(argv)
     if args.report_only:
-        out = Path(args.out or Path(__file__).parent / "results" / args.task).resolve()
-        return report_only(TASKS[args.task], out)
+        out = Path(args.out or default_out(args.task, Path(args.countersteer).resolve()))
+        return report_only(TASKS[args.task], out.resolve())
     exe = Path(args.countersteer).resolve()
     if not exe.is_file():
         sys.exit(f"no countersteer binary at {exe}; build it (cargo build --release) or pass "
                  "--countersteer PATH")
     task = TASKS[args.task]
     cfg = settings(args)
-    out = Path(args.out or Path(__file__).parent / "results" / task.name).resolve()
-    shutil.rmtree(out / "campaigns", ignore_errors=True)
+    out = Path(args.out or default_out(task.name, exe)).resolve()
+    if (out / "campaigns").exists():
+        sys.exit(f"{out / 'campaigns'} exists: another run is using {out}, or a stopped run left "
+                 "it (remove it, or pass --out)")
     out.mkdir(parents=True, exist_ok=True)
     started = time.time()
     print(f"caution: {CAUTION}", file=sys.stderr)
