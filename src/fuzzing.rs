@@ -1,5 +1,7 @@
 //! One entry point per reader of untrusted bytes, for the fuzz targets (`fuzz/`) and for the
-//! test that replays their corpus (`tests/suite/fuzz_corpus.rs`).
+//! test that replays their corpus (`src/fuzzing/corpus_tests.rs`). Compiled only under `--cfg fuzzing`
+//! (`fuzz/instrument.sh` passes it) and in the library's own tests: these functions panic by
+//! design, so they are no part of the library a program links.
 //!
 //! Each function feeds the bytes to the reader exactly as a campaign load would, then checks
 //! what any result must satisfy (a table's arrays agree with its row count, episodes tile
@@ -21,6 +23,10 @@ use crate::campaign::{Problem, Spec, StepTable};
 use crate::ledger::{Entry, parse_ledger};
 
 mod ledger_append;
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used)] // test code: a panic is a failure report
+mod corpus_tests;
 use crate::progress::Progress;
 pub use ledger_append::ledger_append;
 

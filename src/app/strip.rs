@@ -61,15 +61,9 @@ impl Workbench {
         let spec = self.campaign()?.spec();
         let d = spec.state_dim();
         let shares = sig.contributions.get(row * d..(row + 1) * d)?;
-        let mut order: Vec<usize> = (0..d).collect();
-        order.sort_by(|&a, &b| shares[b].total_cmp(&shares[a]));
-        let parts: Vec<String> = order
-            .iter()
-            .take(2)
-            .filter(|&&i| shares[i] >= 0.1)
-            .map(|&i| format!("{} {:.0}%", spec.features[i].name, shares[i] * 100.0))
-            .collect();
-        (!parts.is_empty()).then(|| parts.join(", "))
+        let names: Vec<&str> = spec.features.iter().map(|f| f.name.as_str()).collect();
+        let top = crate::novelty::explain::top_features(shares, 2, 0.1);
+        (!top.is_empty()).then(|| crate::novelty::explain::describe(&names, &top))
     }
 
     fn channel_readout(&self, c: usize) -> String {

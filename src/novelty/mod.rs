@@ -3,7 +3,8 @@
 //!
 //! Pipeline: per-feature [`scale`]s, an exact k-nearest-neighbour [`index`] over the scaled
 //! demonstration states (a kiddo k-d tree, or the [`subspace`] path for wide states), a
-//! split-[`conformal`] calibration on held-out demonstration episodes ([`model`]), and
+//! split-[`conformal`] calibration on held-out demonstration episodes ([`model`], kept as a file
+//! by [`saved`]), and
 //! per-step signals for a round ([`score`], [`signals`]), saved to the campaign by [`store`].
 //!
 //! The novelty of a state is its distance to the k-th nearest demonstration state in scaled
@@ -13,9 +14,11 @@
 pub mod conformal;
 pub mod digest;
 pub mod eigen;
+pub mod explain;
 pub mod index;
 pub mod model;
 pub mod query;
+pub mod saved;
 pub mod scale;
 pub mod score;
 pub mod signals;

@@ -195,6 +195,32 @@ fn calibration_rows(demos: &StepTable, episodes: &[usize]) -> Vec<usize> {
 }
 
 impl NoveltyModel {
+    /// A model from its saved parts and an index rebuilt over every demonstration row (see
+    /// [`super::saved`]): the same model [`build_model_from`] made, without calibrating again.
+    pub fn from_parts(
+        demos: &StepTable,
+        scale: Vec<f32>,
+        conformal: Conformal,
+        k: usize,
+        split: EpisodeSplit,
+    ) -> Result<Self, NoveltyError> {
+        if scale.len() != demos.state_dim || scale.iter().any(|s| !(s.is_finite() && *s > 0.0)) {
+            return Err(NoveltyError::BadScale);
+        }
+        let inv_scale: Vec<f32> = scale.iter().map(|s| 1.0 / s).collect();
+        let all: Vec<u32> = (0..demos.len() as u32).collect();
+        let index = KnnIndex::build(&demos.states, demos.state_dim, &inv_scale, &all)
+            .map_err(NoveltyError::Index)?;
+        Ok(NoveltyModel {
+            scale,
+            inv_scale,
+            index,
+            conformal,
+            k,
+            split,
+        })
+    }
+
     /// Per-feature scales (novelty divides each feature by its scale).
     pub fn scale(&self) -> &[f32] {
         &self.scale

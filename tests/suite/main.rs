@@ -27,7 +27,6 @@ mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
 mod folder_rules;
-mod fuzz_corpus;
 mod hostile;
 mod krippendorff_fixture;
 mod layering;
@@ -53,4 +52,5 @@ mod ui_sitting;
 mod window_kit;
 #[cfg(feature = "gui")]
 mod workbench;
+mod workflow;
 mod writes;

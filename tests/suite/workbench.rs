@@ -7,7 +7,8 @@ use crate::common;
 use crate::window_kit;
 
 use countersteer::app::Workbench;
-use countersteer::app::signals::{ExcursionRows, RoundSignals};
+use countersteer::app::signals::RoundSignals;
+use countersteer::review::Excursion;
 use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
@@ -116,13 +117,13 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
     s.scores.neighbour_action = vec![0.1; n * 2];
     s.scores.neighbours = vec![0; n * 2];
     s.excursions = vec![
-        ExcursionRows {
+        Excursion {
             episode: 2,
             onset: 150,
             peak: 152,
             end: 159,
         },
-        ExcursionRows {
+        Excursion {
             episode: 2,
             onset: 170,
             peak: 171,

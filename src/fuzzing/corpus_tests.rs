@@ -1,10 +1,11 @@
 //! The fuzz corpus, replayed in the normal suite: every seed under `fuzz/corpus/<target>/`
 //! and every input that once crashed a target (`fuzz/regressions/<target>/`) goes through the
-//! same entry point as the fuzz target (`countersteer::fuzzing`), without cargo-fuzz.
+//! same entry point as the fuzz target ([`crate::fuzzing`]), without cargo-fuzz. A unit test,
+//! because the entry points exist only in test builds and under `--cfg fuzzing`.
 
 use std::path::Path;
 
-use countersteer::fuzzing::{self, StepFormat};
+use crate::fuzzing::{self, StepFormat};
 
 const TARGETS: [&str; 8] = [
     "spec",
