@@ -12,7 +12,7 @@ use countersteer::campaign::{Campaign, StepTable};
 use countersteer::consensus::tally as tally_of;
 use countersteer::export::{ExportOptions, Format, Weighting, read_merged};
 use countersteer::ledger::read_ledgers;
-use countersteer::novelty::store::{load_scores, save_scores as save, scores_path};
+use countersteer::novelty::store::{ScoresKey, reusable_scores, save_scores as save};
 use countersteer::novelty::{RoundScores, build_model, score_round};
 use countersteer::progress::Progress;
 use countersteer::review::sitting::judgements;
@@ -83,7 +83,7 @@ pub fn score<'py>(
             let model = build_model(&c, &p)?;
             let s = score_round(&model, &c, steps, &p)?;
             if save {
-                self::save(&c.root, round, steps, &s)?;
+                self::save(&c.root, round, steps, &s, &ScoresKey::of(&c, steps))?;
             }
             Ok(s)
         },
@@ -108,31 +108,26 @@ pub fn save_scores(
         return Err(errors::usage("scores", msg));
     }
     let path = py
-        .detach(|| save(&c.root, round, steps, &s))
+        .detach(|| save(&c.root, round, steps, &s, &ScoresKey::of(&c, steps)))
         .map_err(errors::novelty)?;
     Ok(path.display().to_string())
 }
 
-/// Saved scores when they fit the round and the campaign's settings, else scored now and
-/// saved (the rule of `countersteer plan`).
+/// Saved scores when the library says they can be reused, else scored now and saved (the
+/// rule of `countersteer plan`).
 fn scores_for(
     c: &Campaign,
     round: u32,
     steps: &StepTable,
     rescore: bool,
 ) -> Result<RoundScores, countersteer::novelty::NoveltyError> {
-    if !rescore && scores_path(&c.root, round).is_file() {
-        if let Ok(s) = load_scores(&c.root, round, steps) {
-            let k = c.file.novelty.k.min(c.demonstrations.len());
-            if s.k == k && s.alpha == c.file.novelty.alpha {
-                return Ok(s);
-            }
-        }
+    if !rescore && let Ok(s) = reusable_scores(c, round, steps) {
+        return Ok(s);
     }
     let p = Progress::new();
     let model = build_model(c, &p)?;
     let s = score_round(&model, c, steps, &p)?;
-    save(&c.root, round, steps, &s)?;
+    save(&c.root, round, steps, &s, &ScoresKey::of(c, steps))?;
     Ok(s)
 }
 
