@@ -315,6 +315,7 @@ fn export_options(
 /// the manifest as JSON text.
 #[pyfunction]
 #[pyo3(signature = (campaign, out, format=None, min_agreement=None, min_annotators=1, weighting="uniform", correction_weight=1.0))]
+#[allow(clippy::too_many_arguments)]
 pub fn export(
     py: Python<'_>,
     campaign: PathBuf,
