@@ -12,12 +12,12 @@ use countersteer::campaign::{Campaign, StepTable};
 use countersteer::consensus::tally as tally_of;
 use countersteer::export::{ExportOptions, Format, Weighting, read_merged};
 use countersteer::ledger::read_ledgers;
-use countersteer::novelty::store::{ScoresKey, reusable_scores, save_scores as save};
+use countersteer::novelty::store::{ScoresKey, save_scores as save};
 use countersteer::novelty::{RoundScores, build_model, score_round};
 use countersteer::progress::Progress;
-use countersteer::review::sitting::judgements;
 use countersteer::review::store::save_review_list;
 use countersteer::review::{PlanSettings, plan as plan_list, states_of_rows};
+use countersteer::workflow::{AnalysisOptions, WorkflowError, analyse};
 
 use crate::convert::{self, matrix, rows, values, vector};
 use crate::errors;
@@ -113,34 +113,31 @@ pub fn save_scores(
     Ok(path.display().to_string())
 }
 
-/// Saved scores when the library says they can be reused, else scored now and saved (the
-/// rule of `countersteer plan`).
+/// The round's scores through the library's pipeline driver, as `countersteer plan` obtains
+/// them: the saved scores under their one reuse rule, else scored now and saved.
 fn scores_for(
     c: &Campaign,
     round: u32,
-    steps: &StepTable,
     rescore: bool,
 ) -> Result<RoundScores, countersteer::novelty::NoveltyError> {
-    if !rescore && let Ok(s) = reusable_scores(c, round, steps) {
-        return Ok(s);
+    let options = AnalysisOptions {
+        rescore,
+        save: true,
+        ..Default::default()
+    };
+    match analyse(c, round, options, &Progress::new()) {
+        Ok(a) => Ok(a.scores),
+        Err(WorkflowError::Novelty(e)) => Err(e),
+        // The round was found before; no other failure comes from obtaining scores.
+        Err(e) => Err(countersteer::novelty::NoveltyError::Index(e.to_string())),
     }
-    let p = Progress::new();
-    let model = build_model(c, &p)?;
-    let s = score_round(&model, c, steps, &p)?;
-    save(&c.root, round, steps, &s, &ScoresKey::of(c, steps))?;
-    Ok(s)
 }
 
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> PyResult<Vec<usize>> {
     let ledgers = read_ledgers(&c.root).map_err(errors::ledger)?;
-    let mut rows: Vec<usize> = ledgers
-        .iter()
-        .flat_map(|l| judgements(steps, round, &l.records))
-        .map(|j| j.row)
-        .collect();
-    rows.sort_unstable();
-    rows.dedup();
-    Ok(rows)
+    Ok(countersteer::workflow::judged_rows(
+        steps, round, &ledgers, None,
+    ))
 }
 
 /// Plans a round's review list (as `countersteer plan`, which it saves the same way):
@@ -175,7 +172,7 @@ pub fn plan<'py>(
     };
     let list = py
         .detach(|| -> Result<_, countersteer::novelty::NoveltyError> {
-            let s = scores_for(&c, round, steps, rescore)?;
+            let s = scores_for(&c, round, rescore)?;
             let list = plan_list(steps, &s, &states_of_rows(steps, &judged), &settings);
             save_review_list(&c.root, round, steps, &list)?;
             Ok(list)
@@ -315,7 +312,6 @@ fn export_options(
 /// the manifest as JSON text.
 #[pyfunction]
 #[pyo3(signature = (campaign, out, format=None, min_agreement=None, min_annotators=1, weighting="uniform", correction_weight=1.0))]
-#[allow(clippy::too_many_arguments)]
 pub fn export(
     py: Python<'_>,
     campaign: PathBuf,

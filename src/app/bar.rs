@@ -154,7 +154,9 @@ fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 /// The tally of agreement: annotators, steps judged by two or more, and Krippendorff's alpha
 /// per action channel and for the verdict kind (from [`crate::consensus`]).
 fn agreement_ui(wb: &Workbench, ui: &mut egui::Ui) {
-    let Some(t) = &wb.tally else { return };
+    let Some(t) = wb.tally.as_ref().map(|t| &t.tally) else {
+        return;
+    };
     let annotators = t.ledgers.iter().filter(|l| l.records > 0).count();
     if annotators == 0 {
         return;

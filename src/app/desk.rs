@@ -389,7 +389,7 @@ fn verdict_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 
 fn others_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui) {
     ui.label("Verdicts on this step");
-    let Some(t) = &wb.tally else {
+    let Some(t) = wb.tally.as_ref().map(|t| &t.tally) else {
         ui.weak("ledgers not read");
         return;
     };

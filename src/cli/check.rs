@@ -5,10 +5,10 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
-use crate::campaign::summary::summarize_campaign;
-use crate::campaign::{LoadOptions, Severity, check_campaign};
-use crate::novelty::model::{calibration_count, check_alpha, without_spread};
-use crate::progress::Progress;
+use countersteer::campaign::summary::summarize_campaign;
+use countersteer::campaign::{LoadOptions, Severity, check_campaign};
+use countersteer::novelty::model::{calibration_count, check_alpha, without_spread};
+use countersteer::progress::Progress;
 
 /// Arguments of `check`.
 #[derive(Debug, Args)]
@@ -22,13 +22,13 @@ pub struct CheckArgs {
     #[arg(long)]
     pub strict: bool,
     /// Most records one data file may hold; a file with more is refused.
-    #[arg(long, default_value_t = crate::campaign::steps::DEFAULT_RECORD_CAP)]
+    #[arg(long, default_value_t = countersteer::campaign::steps::DEFAULT_RECORD_CAP)]
     pub max_records: usize,
 }
 
 /// The novelty settings against the demonstrations: an alpha below what the calibration can
 /// resolve is refused; demonstrations without spread are warned about. Returns the warnings.
-fn novelty_checks(c: &crate::campaign::Campaign) -> Result<usize, CliError> {
+fn novelty_checks(c: &countersteer::campaign::Campaign) -> Result<usize, CliError> {
     if let Ok(n) = calibration_count(&c.demonstrations) {
         check_alpha(c.file.novelty.alpha, n).map_err(|e| CliError::invalid(e.to_string()))?;
     }

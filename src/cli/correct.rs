@@ -7,12 +7,12 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 
 use super::{CliError, campaign_dir};
-use crate::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
-use crate::ledger::{
+use countersteer::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
+use countersteer::ledger::{
     ActionValue, BatchError, Correction, Entry, Ledger, OpenReport, Record, UnfinishedBatch,
     Verdict, batch, fingerprint, read_batch,
 };
-use crate::progress::Progress;
+use countersteer::progress::Progress;
 
 /// Arguments of `correct`.
 #[derive(Debug, Args)]
@@ -167,8 +167,8 @@ fn print_open_report(report: &OpenReport, unfinished: Option<&UnfinishedBatch>) 
 
 /// Prints a warning for every entry of `ledgers/` that is not read as a ledger.
 pub fn warn_skipped_ledgers(root: &Path) {
-    for s in crate::ledger::skipped_entries(root) {
-        eprintln!("warning: {s}");
+    for s in countersteer::ledger::skipped_entries(root) {
+        tell!("warning: {s}");
     }
 }
 
@@ -208,7 +208,7 @@ fn check_retraction(a: &CorrectArgs, ledger: &Ledger, seq: u64) -> Result<(), Cl
 pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     let root = campaign_dir(dir)?;
     load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
-        if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
+        if let countersteer::campaign::CampaignError::Invalid { problems, .. } = &e {
             for p in problems {
                 tell!("{p}");
             }
@@ -219,7 +219,7 @@ pub fn load(dir: &Path) -> Result<Campaign, CliError> {
 
 /// Says which records of a batch interrupted by a crash are not in the ledger.
 fn print_unfinished(u: &UnfinishedBatch) {
-    eprintln!(
+    tell!(
         "note: a batch from {} was interrupted: {} of its {} records are in the ledger, {} are \
          NOT (never acknowledged; apply these lines again):",
         u.source.display(),
@@ -228,9 +228,9 @@ fn print_unfinished(u: &UnfinishedBatch) {
         u.missing.len()
     );
     for m in &u.missing {
-        eprintln!("  line {}: {} (would have been #{})", m.line, m.what, m.seq);
+        tell!("  line {}: {} (would have been #{})", m.line, m.what, m.seq);
     }
-    eprintln!("  (its journal is kept at {})", u.kept.display());
+    tell!("  (its journal is kept at {})", u.kept.display());
 }
 
 /// Runs `correct --from FILE`: reads the batch, checks it whole, appends it.
@@ -244,7 +244,7 @@ fn run_batch(a: &CorrectArgs, from: &Path) -> Result<(), CliError> {
     let done = batch::apply(&c, &mut ledger, &b).map_err(|e| {
         if let BatchError::Invalid { problems, .. } = &e {
             for p in problems {
-                eprintln!("{p}");
+                tell!("{p}");
             }
         }
         CliError::invalid(e.to_string())
@@ -252,7 +252,7 @@ fn run_batch(a: &CorrectArgs, from: &Path) -> Result<(), CliError> {
     if let Some(u) = &done.earlier_unfinished {
         print_unfinished(u);
     }
-    println!("{annotator} {} (saved)", summary(&done.records));
+    say!("{annotator} {} (saved)", summary(&done.records));
     Ok(())
 }
 
@@ -308,8 +308,7 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         };
         Ok(step_correction(&a, &c, verdict)?)
     };
-    let (mut ledger, report, unfinished) =
-        batch::open(&c.root, &annotator).map_err(|e| CliError::usage(e.to_string()))?;
+    let (mut ledger, report, unfinished) = batch::open(&c.root, &annotator)?;
     print_open_report(&report, unfinished.as_ref());
     warn_skipped_ledgers(&c.root);
     if let Err(seq) = correction {
@@ -319,7 +318,7 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         Ok(corr) => ledger.append(corr),
         Err(seq) => ledger.retract(seq),
     }
-    .map_err(|e| CliError::invalid(e.to_string()))?;
+    .map_err(CliError::from)?;
     say!("{annotator} {} (saved)", describe(spec, &record));
     Ok(())
 }

@@ -5,8 +5,8 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
-use crate::progress::Progress;
-use crate::sim::{DemoConfig, DemoError, LearnerKind, write_demo_campaign};
+use countersteer::progress::Progress;
+use countersteer::sim::{DemoConfig, DemoError, LearnerKind, write_demo_campaign};
 
 /// Arguments of `demo`.
 #[derive(Debug, Args)]

@@ -7,10 +7,8 @@ use clap::{Args, ValueEnum};
 use super::CliError;
 use super::correct::load;
 use super::progress_bar::Bar;
-use crate::consensus::tally;
-use crate::export::{ExportError, ExportOptions, Format, Weighting, export, manifest_path};
-use crate::ledger::read_ledgers;
-use crate::progress::Progress;
+use countersteer::export::{ExportError, ExportOptions, Format, Weighting, export, manifest_path};
+use countersteer::progress::Progress;
 
 /// Merged-set file formats.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -92,9 +90,8 @@ fn options(a: &ExportArgs) -> Result<ExportOptions, CliError> {
 pub fn run(a: ExportArgs) -> Result<(), CliError> {
     let opts = options(&a)?;
     let c = load(&a.dir)?;
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
+    let t = countersteer::workflow::tally_campaign(&c)?.tally;
     super::correct::warn_skipped_ledgers(&c.root);
-    let t = tally(&c, &ledgers);
     let progress = Progress::new();
     let m = {
         let _bar = Bar::follow(&progress);

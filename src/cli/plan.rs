@@ -5,14 +5,14 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::CliError;
-use super::score::{build_and_score, load};
-use crate::campaign::{Campaign, StepTable};
-use crate::ledger::read_ledgers;
-use crate::novelty::RoundScores;
-use crate::novelty::store::{NotReusable, ScoresKey, reusable_scores, save_scores, scores_path};
-use crate::review::sitting::judgements;
-use crate::review::store::save_review_list;
-use crate::review::{PlanSettings, ReviewList, plan, states_of_rows};
+use super::progress_bar::Bar;
+use super::score::load;
+use countersteer::campaign::{Campaign, StepTable};
+use countersteer::novelty::RoundScores;
+use countersteer::progress::Progress;
+use countersteer::review::store::save_review_list;
+use countersteer::review::{DEFAULT_BUDGET, PlanSettings, ReviewList, plan, states_of_rows};
+use countersteer::workflow::{AnalysisOptions, ScoreSource, analyse, tally_campaign};
 
 /// Arguments of `plan`.
 #[derive(Debug, Args)]
@@ -23,7 +23,7 @@ pub struct PlanArgs {
     #[arg(long)]
     pub round: u32,
     /// Most steps on the list.
-    #[arg(long, default_value_t = 50)]
+    #[arg(long, default_value_t = DEFAULT_BUDGET)]
     pub budget: usize,
     /// Fewest steps between two entries of one episode.
     #[arg(long, default_value_t = 10)]
@@ -43,24 +43,29 @@ pub struct PlanArgs {
     pub no_fill: bool,
 }
 
-fn scores_for(c: &Campaign, a: &PlanArgs, steps: &StepTable) -> Result<RoundScores, CliError> {
-    if !a.rescore {
-        match reusable_scores(c, a.round, steps) {
-            Ok(s) => {
-                tell!(
-                    "using saved scores in {}",
-                    scores_path(&c.root, a.round).display()
-                );
-                return Ok(s);
-            }
-            Err(NotReusable::Missing) => {}
-            Err(why) => tell!("{why}; scoring again"),
+fn analysis_for(c: &Campaign, a: &PlanArgs) -> Result<RoundScores, CliError> {
+    let options = AnalysisOptions {
+        rescore: a.rescore,
+        save: true,
+        ..Default::default()
+    };
+    let progress = Progress::new();
+    let analysis = {
+        let _bar = Bar::follow(&progress);
+        analyse(c, a.round, options, &progress)
+    }
+    .map_err(CliError::from)?;
+    match (&analysis.source, &analysis.stale) {
+        (ScoreSource::Saved(p), _) => tell!("using saved scores in {}", p.display()),
+        (ScoreSource::Scored(_), Some(why)) => tell!("{why}; scoring again"),
+        (ScoreSource::Scored(_), None) => {}
+    }
+    if let (ScoreSource::Scored(_), Some(m)) = (&analysis.source, &analysis.model) {
+        for w in m.warnings() {
+            tell!("warning: {w}");
         }
     }
-    let (_, s) = build_and_score(c, a.round)?;
-    save_scores(&c.root, a.round, steps, &s, &ScoresKey::of(c, steps))
-        .map_err(|e| CliError::invalid(e.to_string()))?;
-    Ok(s)
+    Ok(analysis.scores)
 }
 
 /// Runs `plan`.
@@ -73,7 +78,7 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         .round(a.round)
         .ok_or_else(|| CliError::usage(format!("no round {} in rounds/", a.round)))?
         .steps;
-    let scores = scores_for(&c, &a, steps)?;
+    let scores = analysis_for(&c, &a)?;
     let settings = PlanSettings {
         budget: a.budget,
         min_gap: a.min_gap,
@@ -101,16 +106,11 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
 
 /// Rows of the round with a standing verdict in any annotator's ledger, each once.
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>, CliError> {
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::invalid(e.to_string()))?;
+    let ledgers = tally_campaign(c)?.ledgers;
     super::correct::warn_skipped_ledgers(&c.root);
-    let mut rows: Vec<usize> = ledgers
-        .iter()
-        .flat_map(|l| judgements(steps, round, &l.records))
-        .map(|j| j.row)
-        .collect();
-    rows.sort_unstable();
-    rows.dedup();
-    Ok(rows)
+    Ok(countersteer::workflow::judged_rows(
+        steps, round, &ledgers, None,
+    ))
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {

@@ -5,11 +5,13 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 
 use super::{CliError, campaign_dir, progress_bar::Bar};
-use crate::campaign::{Campaign, LoadOptions, load_campaign};
-use crate::novelty::store::{ScoresKey, save_scores};
-use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
-use crate::progress::Progress;
-use crate::review::{ExcursionSettings, excursions};
+use countersteer::campaign::{Campaign, LoadOptions, load_campaign};
+use countersteer::novelty::explain::{describe, flagged_shares, top_features};
+use countersteer::novelty::store::{ScoresKey, save_scores};
+use countersteer::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
+use countersteer::progress::Progress;
+use countersteer::review::episode_stats;
+use countersteer::review::{ExcursionSettings, excursions};
 
 /// Arguments of `score`.
 #[derive(Debug, Args)]
@@ -75,7 +77,7 @@ pub fn run(a: ScoreArgs) -> Result<(), CliError> {
 fn print_summary(
     c: &Campaign,
     model: &NoveltyModel,
-    steps: &crate::campaign::StepTable,
+    steps: &countersteer::campaign::StepTable,
     s: &RoundScores,
     worst: usize,
 ) {
@@ -113,57 +115,37 @@ fn print_summary(
     print_worst(steps, s, &ex, worst);
 }
 
-fn count_episodes(ex: &[crate::review::Excursion]) -> usize {
+fn count_episodes(ex: &[countersteer::review::Excursion]) -> usize {
     let mut e: Vec<usize> = ex.iter().map(|x| x.episode).collect();
     e.dedup();
     e.len()
 }
 
 fn print_features(c: &Campaign, s: &RoundScores) {
-    let d = s.state_dim;
-    let mut total = vec![0.0f64; d];
-    for row in (0..s.len()).filter(|&r| s.flagged[r]) {
-        for (t, v) in total.iter_mut().zip(s.contribution(row)) {
-            *t += f64::from(*v);
-        }
-    }
-    let sum: f64 = total.iter().sum();
-    if sum <= 0.0 {
+    let Some(shares) = flagged_shares(s) else {
         return;
-    }
-    let mut order: Vec<usize> = (0..d).collect();
-    order.sort_by(|&a, &b| total[b].total_cmp(&total[a]));
-    let top: Vec<String> = order
-        .iter()
-        .take(3)
-        .map(|&j| {
-            format!(
-                "{} {:.0}%",
-                c.spec().features[j].name,
-                100.0 * total[j] / sum
-            )
-        })
-        .collect();
+    };
+    let names: Vec<&str> = c.spec().features.iter().map(|f| f.name.as_str()).collect();
     say!(
         "  features that make flagged steps novel: {}",
-        top.join(", ")
+        describe(&names, &top_features(&shares, 3, 0.0))
     );
 }
 
 fn print_worst(
-    steps: &crate::campaign::StepTable,
+    steps: &countersteer::campaign::StepTable,
     s: &RoundScores,
-    ex: &[crate::review::Excursion],
+    ex: &[countersteer::review::Excursion],
     worst: usize,
 ) {
-    let mut eps: Vec<(usize, usize, f32)> = steps
-        .episodes
-        .iter()
-        .enumerate()
-        .map(|(i, e)| {
-            let f = e.rows().filter(|&r| s.flagged[r]).count();
-            let m = e.rows().map(|r| s.novelty[r]).fold(0.0, f32::max);
-            (i, f, m)
+    let mut eps: Vec<(usize, usize, f32)> = episode_stats(steps, Some(s))
+        .into_iter()
+        .map(|e| {
+            (
+                e.episode,
+                e.flagged.unwrap_or(0),
+                e.peak_novelty.unwrap_or(0.0),
+            )
         })
         .filter(|x| x.1 > 0)
         .collect();

@@ -5,8 +5,8 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
-use crate::progress::Progress;
-use crate::study::{
+use countersteer::progress::Progress;
+use countersteer::study::{
     LearnerKind, ResultRow, Strategy, StudyConfig, output_dir, run_study, write_csv, write_plot,
 };
 
@@ -38,7 +38,7 @@ pub struct StudyArgs {
     pub learner: String,
     /// Steering noise injected while the expert drives demonstrations (rad); the labels
     /// stay the expert's clean commands.
-    #[arg(long, default_value_t = crate::sim::DemoConfig::default().demo_steer_noise)]
+    #[arg(long, default_value_t = countersteer::sim::DemoConfig::default().demo_steer_noise)]
     pub demo_noise: f64,
 }
 
@@ -78,7 +78,7 @@ pub fn run(a: StudyArgs) -> Result<(), CliError> {
     };
     print_table(&rows);
     let csv = out.join("results.csv");
-    crate::durable::write_file(&csv, |w| write_csv(&rows, w))
+    countersteer::durable::write_file(&csv, |w| write_csv(&rows, w))
         .map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
     let png = out.join("departures.png");
     write_plot(&rows, &png).map_err(|e| CliError::usage(format!("{}: {e}", png.display())))?;

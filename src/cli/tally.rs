@@ -6,9 +6,8 @@ use clap::Args;
 
 use super::CliError;
 use super::correct::load;
-use crate::campaign::Spec;
-use crate::consensus::{ChannelAgreement, Judged, StepConsensus, Tally, tally};
-use crate::ledger::read_ledgers;
+use countersteer::campaign::Spec;
+use countersteer::consensus::{ChannelAgreement, Judged, StepConsensus, Tally};
 
 /// Arguments of `tally`.
 #[derive(Debug, Args)]
@@ -118,9 +117,9 @@ fn print_set_apart(t: &Tally) {
 /// Runs `tally`.
 pub fn run(a: TallyArgs) -> Result<(), CliError> {
     let c = load(&a.dir)?;
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
+    let countersteer::workflow::Tallied { ledgers, tally: t } =
+        countersteer::workflow::tally_campaign(&c)?;
     super::correct::warn_skipped_ledgers(&c.root);
-    let t = tally(&c, &ledgers);
     let who: Vec<String> = t
         .ledgers
         .iter()

@@ -1,12 +1,10 @@
 //! From ledgers to the verdicts that count: retractions applied, the latest record of an
 //! annotator for a step wins, and records that no longer fit the campaign are set apart.
 
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::BTreeMap;
 
 use crate::campaign::Campaign;
-use crate::ledger::{
-    AnnotatorLedger, Correction, Entry, Record, Verdict, fingerprint, fingerprint_matches,
-};
+use crate::ledger::{AnnotatorLedger, Verdict, fingerprint, fingerprint_matches, standing};
 
 /// A verdict in the campaign's terms.
 #[derive(Debug, Clone, PartialEq)]
@@ -68,28 +66,6 @@ pub(crate) struct Resolved {
     pub votes: BTreeMap<(u32, usize), Vec<Vote>>,
     pub mismatches: Vec<Mismatch>,
     pub unapplied: Vec<Unapplied>,
-}
-
-/// The latest non-retracted correction per step of one ledger, in ledger order.
-fn standing(records: &[Record]) -> Vec<(u64, &Correction)> {
-    let retracted: HashSet<u64> = records
-        .iter()
-        .filter_map(|r| match r.entry {
-            Entry::Retraction(x) => Some(x.retracts),
-            Entry::Correction(_) => None,
-        })
-        .collect();
-    let mut latest: HashMap<(u32, &str, i64), (u64, &Correction)> = HashMap::new();
-    for r in records {
-        if let Some(c) = r.correction()
-            && !retracted.contains(&r.seq)
-        {
-            latest.insert((c.round, c.episode.as_str(), c.t), (r.seq, c));
-        }
-    }
-    let mut out: Vec<_> = latest.into_values().collect();
-    out.sort_by_key(|(seq, _)| *seq);
-    out
 }
 
 pub(crate) fn resolve(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Resolved {

@@ -18,8 +18,6 @@
 //! the crash are never touched.
 
 use std::collections::{HashMap, HashSet};
-use std::fs::File;
-use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
@@ -399,41 +397,24 @@ fn journal_path(ledger: &Ledger) -> PathBuf {
     ledger.path().with_extension("batch.json")
 }
 
-fn temporary(path: &Path) -> PathBuf {
-    let mut name = path.as_os_str().to_owned();
-    name.push(".tmp");
-    PathBuf::from(name)
-}
-
-/// Writes the journal durably: temporary file, fsync, rename, folder fsync.
+/// Writes the journal through [`crate::durable`] (temporary file, fsync, rename, folder
+/// fsync; never through a link).
 fn write_journal(path: &Path, journal: &Journal) -> Result<(), LedgerError> {
-    let tmp = temporary(path);
     let bytes = serde_json::to_vec(journal).unwrap_or_default();
-    File::create(&tmp)
-        .and_then(|mut f| f.write_all(&bytes).and_then(|()| f.sync_all()))
-        .map_err(LedgerError::io(&tmp))?;
-    std::fs::rename(&tmp, path).map_err(LedgerError::io(path))?;
-    sync_parent(path)
+    crate::durable::write_bytes(path, &bytes).map_err(LedgerError::io(path))
 }
 
 fn sync_parent(path: &Path) -> Result<(), LedgerError> {
-    #[cfg(unix)]
-    if let Some(dir) = path.parent() {
-        File::open(dir)
-            .and_then(|d| d.sync_all())
-            .map_err(LedgerError::io(dir))?;
-    }
-    #[cfg(not(unix))]
-    let _ = path;
-    Ok(())
+    let dir = crate::durable::parent_of(path);
+    crate::durable::sync_dir(dir).map_err(LedgerError::io(dir))
 }
 
 /// Compares a journal left behind with the ledger. A whole batch's journal is removed; an
 /// unfinished batch's journal is kept under a new name and reported.
 fn check_journal(ledger: &Ledger) -> Result<Option<UnfinishedBatch>, LedgerError> {
     let path = journal_path(ledger);
-    // A temporary journal is never whole or never renamed: its batch was not started.
-    let _ = std::fs::remove_file(temporary(&path));
+    // A temporary journal (never whole or never renamed: its batch was not started) is
+    // removed by the durable writer's cleanup of dead processes' temporary files.
     let bytes = match std::fs::read(&path) {
         Ok(b) => b,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(None),
@@ -475,7 +456,7 @@ fn keep_journal(path: &Path) -> Result<PathBuf, LedgerError> {
         .to_string();
     for n in 1u32.. {
         let kept = path.with_file_name(format!("{stem}.batch-unfinished-{n}.json"));
-        if !kept.exists() {
+        if std::fs::symlink_metadata(&kept).is_err() {
             std::fs::rename(path, &kept).map_err(LedgerError::io(&kept))?;
             sync_parent(&kept)?;
             return Ok(kept);

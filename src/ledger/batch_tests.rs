@@ -6,6 +6,7 @@ use crate::campaign::{ActionChannel, CampaignFile, ChannelKind, Feature, Novelty
 use crate::campaign::{Spec, StepTable};
 use crate::ledger::record::ActionValue;
 use crate::ledger::{read_batch, read_ledger};
+use std::io::Write as _;
 
 fn spec() -> Spec {
     Spec {

@@ -20,6 +20,7 @@ pub mod fingerprint;
 mod lock;
 mod read;
 mod record;
+mod standing;
 mod store;
 mod time;
 
@@ -32,6 +33,9 @@ pub use read::{
     read_ledger, read_ledgers, sha256_hex, skipped_entries,
 };
 pub use record::{ActionValue, Correction, Entry, Record, Retraction, Verdict};
+#[cfg(test)]
+pub(crate) use standing::kit as standing_kit;
+pub use standing::{last_standing, retracted, standing, standing_of};
 pub use store::{Ledger, OpenReport, SetAside};
 pub use time::utc_timestamp;
 

@@ -14,6 +14,7 @@
 pub mod conformal;
 pub mod digest;
 pub mod eigen;
+pub mod explain;
 pub mod index;
 pub mod model;
 pub mod query;

@@ -332,6 +332,16 @@ impl Axes {
     pub fn dim(&self) -> usize {
         self.dim
     }
+
+    /// Mean of the scaled states the axes were found from.
+    pub fn mean(&self) -> &[f32] {
+        &self.mean
+    }
+
+    /// Axis `i` (by eigenvalue, descending) as a unit vector over the scaled features.
+    pub fn vector(&self, i: usize) -> Option<&[f32]> {
+        self.vectors.get(i * self.dim..(i + 1) * self.dim)
+    }
 }
 
 #[cfg(test)]

@@ -15,7 +15,7 @@ use countersteer::app::Workbench;
 use countersteer::campaign::{LoadOptions, StepTable, load_campaign};
 use countersteer::ledger::fingerprint;
 use countersteer::progress::Progress;
-use countersteer::review::Status;
+use countersteer::workflow::Status;
 use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;

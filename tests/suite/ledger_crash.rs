@@ -369,7 +369,7 @@ fn a_batch_killed_midway_loses_nothing_acknowledged_and_says_what_is_missing() {
                 })
                 .collect::<Vec<_>>()
         });
-        std::thread::sleep(Duration::from_millis(rng.next() % 400));
+        std::thread::sleep(Duration::from_millis(rng.next() % 600));
         proc.kill().unwrap();
         proc.wait().unwrap();
         acked.extend(reader.join().unwrap());
@@ -403,21 +403,24 @@ fn a_batch_killed_midway_loses_nothing_acknowledged_and_says_what_is_missing() {
 }
 
 /// When a batch was in flight at the kill (its journal is there), cuts the ledger at a random
-/// byte past the last acknowledged record, as a power cut that lost part of the unsynced
-/// write would. Returns whether it cut.
+/// byte inside that batch's records, as a power cut that lost part of the unsynced write
+/// would (records before the batch were fsync'd, acknowledged or not). Returns whether it cut.
 fn power_cut(dir: &Path, acked_to: u64, rng: &mut Rng) -> bool {
-    if !dir.join("ledgers/ana.batch.json").exists() {
+    let Ok(journal) = std::fs::read(dir.join("ledgers/ana.batch.json")) else {
         return false;
-    }
+    };
+    let journal: serde_json::Value = serde_json::from_slice(&journal).unwrap();
+    let first = journal["entries"][0]["seq"].as_u64().unwrap();
+    assert!(first > acked_to, "a journal for acknowledged records");
     let path = dir.join("ledgers/ana.jsonl");
     let bytes = std::fs::read(&path).unwrap();
-    // The ledger's records are numbered 1, 2, ...: keep the first `acked_to` lines whole.
+    // The ledger's records are numbered 1, 2, ...: keep the lines before the batch whole.
     let kept = bytes
         .iter()
         .enumerate()
         .filter(|(_, b)| **b == b'\n')
         .map(|(i, _)| i + 1)
-        .take(acked_to as usize)
+        .take(first as usize - 1)
         .last()
         .unwrap_or(0);
     if kept >= bytes.len() {

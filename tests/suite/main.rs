@@ -27,7 +27,6 @@ mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
 mod folder_rules;
-mod fuzz_corpus;
 mod hostile;
 mod krippendorff_fixture;
 mod layering;
@@ -37,6 +36,7 @@ mod loaders;
 mod long_sitting;
 mod notices;
 mod novelty_knn;
+mod numpy_memory;
 mod plotting;
 mod properties;
 mod review_plan;
@@ -53,4 +53,5 @@ mod ui_sitting;
 mod window_kit;
 #[cfg(feature = "gui")]
 mod workbench;
+mod workflow;
 mod writes;

@@ -7,7 +7,8 @@ use crate::common;
 use crate::window_kit;
 
 use countersteer::app::Workbench;
-use countersteer::app::signals::{ExcursionRows, RoundSignals};
+use countersteer::app::signals::RoundSignals;
+use countersteer::review::Excursion;
 use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
@@ -116,13 +117,13 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
     s.scores.neighbour_action = vec![0.1; n * 2];
     s.scores.neighbours = vec![0; n * 2];
     s.excursions = vec![
-        ExcursionRows {
+        Excursion {
             episode: 2,
             onset: 150,
             peak: 152,
             end: 159,
         },
-        ExcursionRows {
+        Excursion {
             episode: 2,
             onset: 170,
             peak: 171,
@@ -320,4 +321,20 @@ fn the_strip_plots_fit_beside_the_desk_in_a_narrow_window() {
         strip > 100.0 && strip <= width - 280.0,
         "strip plots {strip} points wide in a {width}-point window"
     );
+}
+
+/// Under the window's own theme (larger text and spacing than egui's defaults) the drift
+/// strip keeps its height: its plots are sized from the style, so its contents never ask
+/// for more than the panel has (a panel grows to its contents, frame after frame, and the
+/// strip once swallowed the map that way).
+#[test]
+fn the_strip_keeps_its_height_under_the_theme() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path());
+    countersteer::app::theme::apply(&h.ctx);
+    let start = h.state().ui.layout.strip_height;
+    h.run_steps(40);
+    let end = h.state().ui.layout.strip_height;
+    assert!(end <= start + 1.0, "the strip grew from {start} to {end}");
 }
