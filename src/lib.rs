@@ -19,6 +19,7 @@ pub mod progress;
 pub mod review;
 pub mod sim;
 pub mod study;
+pub mod trend;
 
 /// The safety caution carried by the README, the desktop program and every export manifest.
 pub const SAFETY_CAUTION: &str = "Robots and vehicles can hurt people. Corrected data does not \

@@ -69,6 +69,8 @@ pub enum ProblemKind {
     BadEpisodeName,
     /// Text in an encoding other than UTF-8 (e.g. a UTF-16 byte-order mark).
     NotUtf8,
+    /// Two different outcomes given for one episode.
+    ConflictingOutcome,
 }
 
 /// Whether a problem stops the campaign from loading.

@@ -3,7 +3,8 @@
 //!
 //! Arrays: `states` (n, D) float, `actions` (n, A) float (discrete channels hold choice
 //! indices), `episode` (n,) integer or string, `t` (n,) integer; optional `intervention` (n,)
-//! bool or integer, `frame` (n,) string (empty for none), `samples` (n, S, A) float.
+//! bool or integer, `frame` (n,) string (empty for none), `samples` (n, S, A) float,
+//! `reward` and `cost` (n,) float (NaN for none), `outcome` (n,) string (empty for none).
 //! Parsing is npyz's; before any array is read its declared size is checked against the bytes
 //! that hold it, so a header cannot make the loader allocate more than the file carries.
 
@@ -20,12 +21,13 @@ pub use header::{MAX_HEADER_BYTES, MAX_HEADER_NESTING, declared_shape};
 use super::accept::{RowMeta, accept};
 use super::error::{Location, ProblemKind, ProblemLog};
 use super::npz;
+use super::outcome::RawOutcome;
 use super::steps::StepTableBuilder;
 use super::validate::{RawValue, RowChecker, resolve_frame};
 use crate::progress::Progress;
 
 /// The array names a NumPy step set may hold.
-pub const ARRAY_NAMES: [&str; 7] = [
+pub const ARRAY_NAMES: [&str; 10] = [
     "states",
     "actions",
     "episode",
@@ -33,6 +35,9 @@ pub const ARRAY_NAMES: [&str; 7] = [
     "intervention",
     "frame",
     "samples",
+    "reward",
+    "cost",
+    "outcome",
 ];
 
 /// Values of one array, converted to a common type.
@@ -408,6 +413,10 @@ pub fn read_numpy(
     let intervention = get("intervention", false, log);
     let frame = get("frame", false, log);
     let samples = get("samples", false, log);
+    let extra: Vec<Option<Array>> = ["reward", "cost", "outcome"]
+        .iter()
+        .map(|name| get(name, false, log))
+        .collect();
     let (Some(states), Some(actions), Some(episode), Some(t)) = (states, actions, episode, t)
     else {
         return;
@@ -447,6 +456,11 @@ pub fn read_numpy(
     }
     if let Some(x) = &samples {
         want("samples", x, &[Some(n), None, Some(a as u64)]);
+    }
+    for (name, x) in ["reward", "cost", "outcome"].iter().zip(&extra) {
+        if let Some(x) = x {
+            want(name, x, &[Some(n)]);
+        }
     }
     if !shape_ok {
         return;
@@ -497,6 +511,9 @@ pub fn read_numpy(
         .and_then(|x| x.shape.get(1).copied())
         .unwrap_or(0) as usize;
     let samples = samples.map(|x| numbers(&x));
+    let Some(outcomes) = OutcomeArrays::new(extra, log) else {
+        return;
+    };
     let n = n as usize;
     let mut raw: Vec<RawValue> = Vec::with_capacity(a);
     for i in 0..n {
@@ -526,6 +543,7 @@ pub fn read_numpy(
                 ok &= checker.sample(raw.iter(), log, at, &format!("samples[{j}]"));
             }
         }
+        ok &= checker.outcome(outcomes.row(i), log, at);
         let frame = match frames
             .as_ref()
             .map(|f| f[i].as_str())
@@ -551,6 +569,54 @@ pub fn read_numpy(
             if !accept(b, log, at, meta, checker) {
                 return;
             }
+        }
+    }
+}
+
+/// The optional `reward`, `cost` and `outcome` arrays of a step set.
+struct OutcomeArrays {
+    reward: Option<Vec<f64>>,
+    cost: Option<Vec<f64>>,
+    outcome: Option<Vec<String>>,
+}
+
+impl OutcomeArrays {
+    /// From the arrays in the order reward, cost, outcome; `None` (logged) when `outcome`
+    /// is not a string array.
+    fn new(mut arrays: Vec<Option<Array>>, log: &mut ProblemLog) -> Option<Self> {
+        let outcome = match arrays.pop().flatten().map(|a| a.values) {
+            None => None,
+            Some(Values::Text(v)) => Some(v),
+            Some(_) => {
+                let msg = "`outcome` must be a string array (empty strings for none)";
+                log.error(ProblemKind::MalformedNumpy, Location::File, "outcome", msg);
+                return None;
+            }
+        };
+        let mut num = |name: &str| match arrays.pop().flatten() {
+            Some(a) if matches!(a.values, Values::Text(_)) => {
+                let msg = format!("`{name}` must be a number array (NaN for none)");
+                log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
+                Err(())
+            }
+            a => Ok(a.map(|a| numbers(&a))),
+        };
+        let cost = num("cost").ok()?;
+        let reward = num("reward").ok()?;
+        Some(OutcomeArrays {
+            reward,
+            cost,
+            outcome,
+        })
+    }
+
+    /// Row `i`'s fields (NaN and empty strings give none).
+    fn row(&self, i: usize) -> RawOutcome<'_> {
+        let num = |v: &Option<Vec<f64>>| v.as_ref().map(|v| v[i]).filter(|x| !x.is_nan());
+        RawOutcome {
+            reward: num(&self.reward),
+            cost: num(&self.cost),
+            outcome: self.outcome.as_ref().map(|v| v[i].as_str()),
         }
     }
 }

@@ -7,6 +7,7 @@ use clap::Args;
 use super::{CliError, progress_bar::Bar};
 use crate::campaign::summary::summarize_campaign;
 use crate::campaign::{LoadOptions, Severity, check_campaign};
+use crate::novelty::scale::scales_with_origin;
 use crate::progress::Progress;
 
 /// Arguments of `check`.
@@ -82,6 +83,12 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
                 f.name, f.min, f.max, f.mean, f.unit
             );
         }
+    }
+    if !c.demonstrations.is_empty() {
+        let scales = scales_with_origin(c.spec(), &c.demonstrations);
+        let scale: Vec<f32> = scales.iter().map(|s| s.scale as f32).collect();
+        let origin: Vec<_> = scales.iter().map(|s| s.origin).collect();
+        super::score::print_scales(c.spec(), &scale, &origin);
     }
     if warnings > 0 {
         println!("{warnings} warning(s) above; the data was used as described in each");

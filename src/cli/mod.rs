@@ -9,6 +9,7 @@ mod export;
 mod gui;
 mod plan;
 mod progress_bar;
+pub mod rounds;
 mod score;
 mod study;
 mod tally;
@@ -48,6 +49,9 @@ pub enum Command {
     Score(score::ScoreArgs),
     /// Choose the steps of a round the expert should review, under a budget.
     Plan(plan::PlanArgs),
+    /// Show the trend across rounds: flagged share, excursions, interventions, failures,
+    /// novelty and labels spent per round.
+    Rounds(rounds::RoundsArgs),
     /// Write the orchard-rover demo campaign (spec, demonstrations, two rounds, frames).
     Demo(demo::DemoArgs),
     /// Compare labelling strategies over several aggregation rounds on the demo scenario.
@@ -76,6 +80,7 @@ pub fn main() -> ExitCode {
         Some(Command::Export(a)) => export::run(a),
         Some(Command::Score(a)) => score::run(a),
         Some(Command::Plan(a)) => plan::run(a),
+        Some(Command::Rounds(a)) => rounds::run(a),
         Some(Command::Demo(a)) => demo::run(a),
         Some(Command::Study(a)) => study::run(a),
     };

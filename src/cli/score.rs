@@ -6,6 +6,7 @@ use clap::Args;
 
 use super::{CliError, campaign_dir, progress_bar::Bar};
 use crate::campaign::{Campaign, LoadOptions, load_campaign};
+use crate::novelty::scale::ScaleOrigin;
 use crate::novelty::store::save_scores;
 use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
 use crate::progress::Progress;
@@ -92,9 +93,11 @@ fn print_summary(
         model.alpha()
     );
     println!(
-        "  flag threshold: novelty > {:.4} (scaled units)",
-        s.threshold
+        "  flag threshold: novelty > {:.4} (scaled units) past the episode's first {} steps",
+        s.threshold,
+        s.phase_start.last().copied().unwrap_or(0)
     );
+    print_phases(model, steps, s);
     println!(
         "  steps: {n}, flagged: {flagged} ({:.1}%)",
         100.0 * flagged as f64 / n.max(1) as f64
@@ -106,8 +109,56 @@ fn print_summary(
         count_episodes(&ex),
         steps.episodes.len()
     );
+    print_scales(c.spec(), &s.scale, &s.scale_origin);
     print_features(c, s);
     print_worst(steps, s, &ex, worst);
+}
+
+/// Prints each calibration phase: its threshold, calibration scores and this round's flagged
+/// share, beside the share the pooled calibration (all phases together) would flag.
+fn print_phases(model: &NoveltyModel, steps: &crate::campaign::StepTable, s: &RoundScores) {
+    let phased = model.phased();
+    let p = phased.parts().len();
+    let (mut n, mut own, mut pooled) = (vec![0usize; p], vec![0usize; p], vec![0usize; p]);
+    for row in 0..s.len() {
+        let i = phased.phase(steps.position(row));
+        n[i] += 1;
+        own[i] += usize::from(s.flagged[row]);
+        pooled[i] += usize::from(model.conformal().flagged(s.novelty[row]));
+    }
+    println!("  calibration phases (steps from the episode's start; Mondrian conformal):");
+    let starts = phased.starts();
+    for i in 0..p {
+        let end = starts
+            .get(i + 1)
+            .map_or("end".to_string(), |e| e.to_string());
+        let pct = |c: usize| 100.0 * c as f64 / n[i].max(1) as f64;
+        println!(
+            "    [{:>5}, {:>5}) {:>6} calibration scores, threshold {:>8.4}; {:>7} steps, {:>5.1}% flagged (pooled calibration {:.1}%)",
+            starts[i],
+            end,
+            phased.parts()[i].len(),
+            phased.parts()[i].threshold(),
+            n[i],
+            pct(own[i]),
+            pct(pooled[i])
+        );
+    }
+}
+
+/// Prints every feature's novelty scale and where it came from.
+pub fn print_scales(spec: &crate::campaign::Spec, scale: &[f32], origin: &[ScaleOrigin]) {
+    println!("  novelty scales (each feature is divided by its scale):");
+    for (j, (s, o)) in scale.iter().zip(origin).enumerate() {
+        let f = spec.features.get(j);
+        println!(
+            "    {:<24} {:>12.5} {:<6} from {}",
+            f.map_or("?", |f| f.name.as_str()),
+            s,
+            f.map_or("", |f| f.unit.as_str()),
+            o.label()
+        );
+    }
 }
 
 fn count_episodes(ex: &[crate::review::Excursion]) -> usize {

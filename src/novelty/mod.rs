@@ -13,6 +13,7 @@
 pub mod conformal;
 pub mod index;
 pub mod model;
+pub mod phase;
 pub mod query;
 pub mod scale;
 pub mod score;

@@ -7,6 +7,7 @@ use super::NoveltyError;
 use super::index::Hit;
 use super::model::NoveltyModel;
 use super::query::seeded_knn;
+use super::scale::ScaleOrigin;
 use super::signals::{channel_gap, consensus, contributions, ensemble_spread, rms, weights};
 use crate::campaign::{ActionChannel, Campaign, StepTable};
 use crate::progress::Progress;
@@ -41,12 +42,18 @@ pub struct RoundScores {
     pub ensemble_spread: Vec<f32>,
     /// `n * k`: demonstration rows of the k nearest neighbours, nearest first.
     pub neighbours: Vec<u32>,
-    /// The novelty above which steps are flagged.
+    /// The novelty above which steps of the last phase (the bulk of an episode) are flagged.
     pub threshold: f32,
+    /// First position (steps from the episode's start) of each calibration phase.
+    pub phase_start: Vec<usize>,
+    /// The flag threshold of each phase (see `novelty::phase`).
+    pub phase_threshold: Vec<f32>,
     /// The flag level.
     pub alpha: f64,
     /// The per-feature scales the novelty was measured with (`state_dim` values).
     pub scale: Vec<f32>,
+    /// Where each scale came from (`state_dim` values).
+    pub scale_origin: Vec<ScaleOrigin>,
 }
 
 impl RoundScores {
@@ -75,6 +82,16 @@ impl RoundScores {
         &self.neighbours[row * self.k..(row + 1) * self.k]
     }
 
+    /// The flag threshold at a position in an episode (the last phase's past the phases, or
+    /// `threshold` when no phases were saved).
+    pub fn threshold_at(&self, position: usize) -> f32 {
+        let i = self.phase_start.partition_point(|&s| s <= position);
+        i.checked_sub(1)
+            .and_then(|i| self.phase_threshold.get(i))
+            .copied()
+            .unwrap_or(self.threshold)
+    }
+
     /// Number of flagged steps.
     pub fn flagged_count(&self) -> usize {
         self.flagged.iter().filter(|&&f| f).count()
@@ -86,8 +103,11 @@ impl RoundScores {
             action_dim: steps.action_dim,
             k: m.k().min(m.index().len()),
             threshold: m.threshold(),
+            phase_start: m.phased().starts().to_vec(),
+            phase_threshold: m.phased().thresholds(),
             alpha: m.alpha(),
             scale: m.scale().to_vec(),
+            scale_origin: m.scale_origin().to_vec(),
             ..Default::default()
         }
     }
@@ -181,7 +201,7 @@ impl Ctx<'_> {
         for &row in rows {
             let h = &hits[row * self.k..(row + 1) * self.k];
             let novelty = h.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt());
-            let p = self.model.p_value(novelty);
+            let p = self.model.p_value(novelty, self.steps.position(row));
             s.novelty.push(novelty);
             s.p_value.push(p as f32);
             s.flagged.push(p <= self.model.alpha());

@@ -17,9 +17,12 @@
 //! | `neighbour_spread` | float32 | (n,) | the neighbours' spread, range units |
 //! | `ensemble_spread` | float32 | (n,) | ensemble sample spread (NaN: no samples) |
 //! | `neighbours` | uint32 | (n, k) | demonstration rows of the neighbours, nearest first |
-//! | `threshold` | float32 | (1,) | novelty above which steps are flagged |
+//! | `threshold` | float32 | (1,) | novelty above which steps of the last phase are flagged |
+//! | `phase_start` | int64 | (P,) | first position (steps from the episode's start) of each calibration phase |
+//! | `phase_threshold` | float32 | (P,) | novelty above which steps of each phase are flagged |
 //! | `alpha` | float64 | (1,) | flag level |
 //! | `scale` | float32 | (D,) | per-feature scales of the novelty distance |
+//! | `scale_origin` | unicode | (D,) | where each scale came from: `spec`, `MAD`, `IQR`, `standard deviation`, `unit`, `binary`, `categorical` |
 //!
 //! Scores are derived data: scoring again replaces the file (written beside it, then renamed,
 //! so a reader never sees half a file). Nothing the experts entered lives here.
@@ -31,6 +34,7 @@ use std::path::{Path, PathBuf};
 use crate::campaign::npz::NpzWriter;
 
 use super::NoveltyError;
+use super::scale::ScaleOrigin;
 use super::score::RoundScores;
 use crate::campaign::StepTable;
 use crate::campaign::numpy::{Array, ArraySource, NpzSource, Values};
@@ -124,8 +128,13 @@ pub fn write_npz<W: Write + std::io::Seek>(
     put(&mut npz, "ensemble_spread", &[n], &s.ensemble_spread)?;
     put(&mut npz, "neighbours", &[n, s.k as u64], &s.neighbours)?;
     put(&mut npz, "threshold", &[1], &[s.threshold])?;
+    let phases: Vec<i64> = s.phase_start.iter().map(|&p| p as i64).collect();
+    put(&mut npz, "phase_start", &[phases.len() as u64], &phases)?;
+    let p = s.phase_threshold.len() as u64;
+    put(&mut npz, "phase_threshold", &[p], &s.phase_threshold)?;
     put(&mut npz, "alpha", &[1], &[s.alpha])?;
     put(&mut npz, "scale", &[s.state_dim as u64], &s.scale)?;
+    npz.strings("scale_origin", s.scale_origin.iter().map(|o| o.label()))?;
     npz.finish().map(drop)
 }
 
@@ -170,6 +179,52 @@ impl Reader {
             .into_iter()
             .map(|x| x as f32)
             .collect())
+    }
+}
+
+impl Reader {
+    fn phase_count(&mut self) -> Result<u64, NoveltyError> {
+        let a = self
+            .src
+            .array("phase_start")
+            .map_err(|e| store_err(&self.path, e))?;
+        a.and_then(|a| a.shape.first().copied()).ok_or_else(|| {
+            store_err(
+                &self.path,
+                "array `phase_start` is missing; score the round again",
+            )
+        })
+    }
+
+    fn phase_starts(&mut self) -> Result<Vec<usize>, NoveltyError> {
+        let p = self.phase_count()?;
+        let v = self.floats("phase_start", &[p])?;
+        if v.first() != Some(&0.0) || v.windows(2).any(|w| w[0] >= w[1]) {
+            return Err(store_err(
+                &self.path,
+                "array `phase_start` must start at 0 and increase",
+            ));
+        }
+        Ok(v.into_iter().map(|x| x as usize).collect())
+    }
+
+    fn origins(&mut self, d: u64) -> Result<Vec<ScaleOrigin>, NoveltyError> {
+        let Values::Text(v) = self.array("scale_origin", &[d])?.values else {
+            return Err(store_err(
+                &self.path,
+                "array `scale_origin` holds numbers, not text",
+            ));
+        };
+        v.iter()
+            .map(|s| {
+                ScaleOrigin::from_label(s).ok_or_else(|| {
+                    store_err(
+                        &self.path,
+                        format!("array `scale_origin`: unknown origin `{s}`"),
+                    )
+                })
+            })
+            .collect()
     }
 }
 
@@ -222,7 +277,13 @@ pub fn load_scores(
             .map(|x| x as u32)
             .collect(),
         threshold: r.f32s("threshold", &[1])?[0],
+        phase_start: r.phase_starts()?,
+        phase_threshold: {
+            let p = r.phase_count()?;
+            r.f32s("phase_threshold", &[p])?
+        },
         alpha: r.floats("alpha", &[1])?[0],
         scale: r.f32s("scale", &[d])?,
+        scale_origin: r.origins(d)?,
     })
 }

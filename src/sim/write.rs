@@ -202,6 +202,7 @@ pub fn table(
                 intervention: flags.then_some(s.intervention),
                 samples: &samples,
                 origin: 0,
+                ..Default::default()
             });
         }
     }

@@ -11,6 +11,7 @@ mod common;
 
 mod bad_inputs;
 mod calibration;
+mod calibration_phases;
 mod cli_corrections;
 #[cfg(feature = "gui")]
 mod cli_gui;
@@ -37,6 +38,7 @@ mod review_plan;
 mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
+mod scale_fixture;
 mod shared_folder;
 mod sim_closed_loop;
 mod study;
