@@ -102,6 +102,19 @@ pub fn round_trend(
     }
 }
 
+/// Episodes of a table whose outcome is a failure under the campaign's spec; `None` when no
+/// episode has an outcome.
+pub fn failed_episodes(c: &Campaign, steps: &StepTable) -> Option<usize> {
+    if steps.outcomes.iter().all(Option::is_none) {
+        return None;
+    }
+    let failures = c.spec().failure_indices();
+    let failed = (0..steps.episodes.len())
+        .filter(|&e| steps.outcome(e).is_some_and(|o| failures.contains(&o)))
+        .count();
+    Some(failed)
+}
+
 /// Why the trend of a campaign could not be made.
 #[derive(Debug, thiserror::Error)]
 pub enum TrendError {
@@ -152,7 +165,8 @@ pub fn campaign_trend(
     for r in &c.rounds {
         let s = scores_of(c, &r.steps, r.number, rescore, &mut model, progress)?;
         let counts = t.rounds.iter().find(|x| x.round == r.number);
-        out.push(round_trend(r.number, &r.steps, &s, counts, None));
+        let failures = failed_episodes(c, &r.steps);
+        out.push(round_trend(r.number, &r.steps, &s, counts, failures));
     }
     Ok(out)
 }

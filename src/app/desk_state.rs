@@ -136,6 +136,7 @@ impl Workbench {
         }
         let settings = PlanSettings {
             budget: self.ui.budget.max(1),
+            failures: c.spec().failure_indices(),
             ..Default::default()
         };
         self.desk.sitting = Some(Sitting::new(&r.steps, &sig.scores, round, &settings));

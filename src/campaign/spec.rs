@@ -243,6 +243,14 @@ impl Spec {
         self.outcome_list().iter().position(|o| o.name == name)
     }
 
+    /// Indices (in [`Spec::outcome_list`]) of the outcomes that are failures.
+    pub fn failure_indices(&self) -> Vec<u32> {
+        let list = self.outcome_list();
+        (0..list.len() as u32)
+            .filter(|&i| list[i as usize].failure)
+            .collect()
+    }
+
     /// True when the outcome with this index is a failure.
     pub fn is_failure(&self, index: usize) -> bool {
         self.outcome_list().get(index).is_some_and(|o| o.failure)

@@ -32,6 +32,7 @@ mod ledger_crash;
 mod loaders;
 mod long_sitting;
 mod novelty_knn;
+mod outcomes;
 mod plotting;
 mod properties;
 mod review_plan;
@@ -42,6 +43,7 @@ mod scale_fixture;
 mod shared_folder;
 mod sim_closed_loop;
 mod study;
+mod trend;
 #[cfg(feature = "gui")]
 mod ui_sitting;
 #[cfg(feature = "gui")]
