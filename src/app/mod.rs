@@ -27,6 +27,7 @@ pub mod state;
 pub mod status;
 pub mod strip;
 pub mod texts;
+pub mod trend_view;
 pub mod views;
 pub mod workbench;
 
