@@ -155,3 +155,32 @@ fn the_window_before_a_failure_enters_the_review_list_within_its_share() {
             .all(|e| !e.reasons.contains(&Reason::BeforeFailure))
     );
 }
+
+#[test]
+fn written_outcome_fields_read_back_in_every_format() {
+    use countersteer::campaign::write::{write_csv, write_jsonl, write_npz_with_outcomes};
+    let dir = tempfile::tempdir().unwrap();
+    let root = dir.path();
+    write_campaign(root, 40);
+    declare_outcomes(root);
+    std::fs::create_dir_all(root.join("rounds/3")).unwrap();
+    std::fs::write(root.join("rounds/3/r.jsonl"), JSONL).unwrap();
+    let c = load(root);
+    let t = c.round(3).unwrap().steps.clone();
+    let spec = c.spec().clone();
+    for (round, file) in [(6, "w.jsonl"), (7, "w.csv"), (8, "w.npz")] {
+        let d = root.join(format!("rounds/{round}"));
+        std::fs::create_dir_all(&d).unwrap();
+        let f = std::io::BufWriter::new(std::fs::File::create(d.join(file)).unwrap());
+        let rel = format!("rounds/{round}");
+        match round {
+            6 => write_jsonl(&t, &spec, &rel, f).unwrap(),
+            7 => write_csv(&t, &spec, &rel, f).unwrap(),
+            _ => write_npz_with_outcomes(&t, Some(&spec), f).unwrap(),
+        }
+    }
+    let c = load(root);
+    for (round, format) in [(6, "JSON Lines"), (7, "CSV"), (8, "NumPy")] {
+        check(&c.round(round).unwrap().steps, format);
+    }
+}

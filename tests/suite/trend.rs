@@ -28,9 +28,17 @@ fn numpy_quantile(v: &[f32], q: f64) -> f64 {
     }
 }
 
-/// Episodes, steps and takeovers (an intervention step whose predecessor in the episode is
-/// not one) counted from the JSON Lines text itself.
-fn jsonl_counts(text: &str) -> (usize, usize, usize) {
+/// Episodes, steps, takeovers (an intervention step whose predecessor in the episode is
+/// not one) and failed episodes counted from the JSON Lines text itself.
+fn jsonl_counts(text: &str) -> (usize, usize, usize, usize) {
+    let failures = text
+        .lines()
+        .filter(|l| !l.trim().is_empty())
+        .filter(|l| {
+            let v: serde_json::Value = serde_json::from_str(l).unwrap();
+            v["outcome"] == "failure"
+        })
+        .count();
     let mut eps: BTreeMap<String, Vec<(i64, bool)>> = BTreeMap::new();
     for line in text.lines().filter(|l| !l.trim().is_empty()) {
         let v: serde_json::Value = serde_json::from_str(line).unwrap();
@@ -50,7 +58,7 @@ fn jsonl_counts(text: &str) -> (usize, usize, usize) {
                 .count()
         })
         .sum();
-    (eps.len(), steps, takeovers)
+    (eps.len(), steps, takeovers, failures)
 }
 
 #[test]
@@ -86,11 +94,13 @@ fn the_trend_of_the_demo_campaign_matches_counts_made_from_its_files() {
     assert_eq!((trend[0].labels, trend[0].judged), (4, 3));
     assert_eq!((trend[1].labels, trend[1].judged), (1, 1));
     let text = std::fs::read_to_string(dir.join("rounds/1/learner.jsonl")).unwrap();
-    let (episodes, steps, takeovers) = jsonl_counts(&text);
+    let (episodes, steps, takeovers, failures) = jsonl_counts(&text);
     assert_eq!(
         (trend[0].episodes, trend[0].steps, trend[0].interventions),
         (episodes, steps, takeovers)
     );
+    // The demo marks an episode whose rover left the lane a failure.
+    assert_eq!(trend[0].failures, Some(failures));
     for r in &trend {
         let steps = &c.round(r.round).unwrap().steps;
         // Scoring saved the scores; the trend's figures follow from them.
@@ -108,7 +118,6 @@ fn the_trend_of_the_demo_campaign_matches_counts_made_from_its_files() {
                 "q{q}: {got} vs {want}"
             );
         }
-        assert_eq!(r.failures, None, "the demo writes no outcomes");
     }
     // Round 2 has the scripted takeovers.
     assert!(trend[1].interventions > 0);
