@@ -19,7 +19,10 @@ use crate::campaign::steps::StepTableBuilder;
 use crate::campaign::validate::RowChecker;
 use crate::campaign::{Problem, Spec, StepTable};
 use crate::ledger::{Entry, parse_ledger};
+
+mod ledger_append;
 use crate::progress::Progress;
+pub use ledger_append::ledger_append;
 
 /// The spec every step reader is fuzzed against: three features, one continuous and one
 /// discrete action channel (the bad-input corpus's spec).
@@ -147,7 +150,14 @@ pub fn ledger(data: &[u8]) {
             );
         }
     }
-    let lines = data.iter().filter(|&&c| c == b'\n').count() as u64;
+    assert!(
+        l.records
+            .windows(2)
+            .all(|w| w[1].seq.checked_sub(w[0].seq).is_some_and(|d| d >= 1)),
+        "a record's seq does not follow the previous one"
+    );
+    // A whole last record without its newline is a line too.
+    let lines = data.iter().filter(|&&c| c == b'\n').count() as u64 + 1;
     assert!(l.problems.iter().all(|p| p.line >= 1 && p.line <= lines));
 }
 

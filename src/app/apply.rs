@@ -278,6 +278,10 @@ impl Workbench {
             Command::Pause => self.playback.pause(),
             Command::Speed(up) => self.ui.speed = next_speed(self.ui.speed, up),
             Command::ToggleHelp => self.show_help = !self.show_help,
+            Command::PutCautionAway => {
+                let who = self.ui.annotator.clone();
+                self.ui.caution_put_away(&who, &super::state::today());
+            }
             c => self.apply_desk(c),
         }
     }

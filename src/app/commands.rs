@@ -34,6 +34,8 @@ pub enum Command {
     Speed(bool),
     /// Show or hide the help overlay.
     ToggleHelp,
+    /// The annotator has read the desk's safety caution: hide it until their next day.
+    PutCautionAway,
     /// Save the desk's action as a correction of the step on the desk, then go to the next
     /// open entry.
     SaveAction,

@@ -3,7 +3,7 @@
 //! channel (slider and exact number, a button per choice, a 2-D pad for two continuous
 //! channels), the verdict buttons with their keys, a note, and the other annotators' verdicts.
 
-use egui::{Color32, Sense, Stroke, pos2, vec2};
+use egui::{Sense, Stroke, pos2, vec2};
 
 use crate::campaign::ChannelKind;
 use crate::review::brief::{ChannelLine, StepBrief, bounds};
@@ -12,10 +12,7 @@ use super::commands::{Command, FocusTarget};
 use super::desk_state::exact_text;
 use super::workbench::Workbench;
 
-const LEARNER: Color32 = Color32::from_rgb(120, 180, 240);
-const EXPERT: Color32 = Color32::from_rgb(240, 170, 60);
-const STALE: Color32 = Color32::from_rgb(230, 120, 90);
-const ACTIVE: Color32 = Color32::from_rgb(150, 230, 150);
+use super::theme::{ACCENT as ACTIVE, EXPERT, LEARNER, STALE};
 
 /// Draws the desk.
 pub fn desk_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
@@ -33,6 +30,7 @@ pub fn desk_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 fn body_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     ui.heading("Correction desk");
     who_ui(wb, ui, cmds);
+    caution_ui(wb, ui, cmds);
     let Some(b) = wb.desk.brief.clone() else {
         ui.weak("no step selected");
         return;
@@ -71,6 +69,22 @@ fn who_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             cmds.push(Command::AskAnnotator);
         }
     });
+}
+
+/// The safety caution, once per annotator and day, until it is put away.
+fn caution_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
+    if !wb.ui.caution_due(&wb.ui.annotator, &super::state::today()) {
+        return;
+    }
+    egui::Frame::group(ui.style())
+        .stroke(Stroke::new(1.0, super::theme::CAUTION))
+        .show(ui, |ui| {
+            ui.colored_label(super::theme::CAUTION, "Safety caution");
+            ui.label(crate::SAFETY_CAUTION);
+            if ui.button("Read: hide until tomorrow").clicked() {
+                cmds.push(Command::PutCautionAway);
+            }
+        });
 }
 
 fn step_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui) {

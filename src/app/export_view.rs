@@ -245,7 +245,7 @@ fn result_ui(wb: &Workbench, ui: &mut egui::Ui) {
             ui.small(crate::SAFETY_CAUTION);
         }
         Some(Err(e)) => {
-            ui.colored_label(egui::Color32::from_rgb(230, 120, 90), e);
+            ui.colored_label(super::theme::STALE, e);
         }
         Some(Ok((out, m))) => {
             ui.strong(format!("wrote {}", out.display()));

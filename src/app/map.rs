@@ -173,7 +173,7 @@ fn map_ui(wb: &mut Workbench, ui: &mut egui::Ui) {
                     Points::new(texts::NEIGHBOURS, neighbours)
                         .shape(MarkerShape::Diamond)
                         .radius(4.0)
-                        .color(Color32::from_rgb(230, 120, 60)),
+                        .color(super::theme::FLAG),
                 );
             }
             if let Some(h) = here {

@@ -27,6 +27,7 @@ pub mod state;
 pub mod status;
 pub mod strip;
 pub mod texts;
+pub mod theme;
 pub mod trend_view;
 pub mod views;
 pub mod workbench;
@@ -114,6 +115,7 @@ pub fn run(open: Option<PathBuf>, start: Start) -> Result<(), RunError> {
         texts::TITLE,
         options,
         Box::new(move |cc| {
+            theme::apply(&cc.egui_ctx);
             let ui: UiState = cc
                 .storage
                 .and_then(|s| eframe::get_value(s, state::STORAGE_KEY))

@@ -1,7 +1,7 @@
 //! The episode shelf on the left: the round's episodes with a novelty sparkline, flagged
 //! share and interventions; sort and filter. A tab beside it shows the review list.
 
-use egui::{Color32, Sense, Stroke, pos2, vec2};
+use egui::{Sense, Stroke, pos2, vec2};
 
 use super::commands::Command;
 use super::state::ShelfSort;
@@ -155,6 +155,6 @@ fn sparkline_ui(ui: &mut egui::Ui, values: &[f32], threshold: Option<f32>) {
         .collect();
     p.add(egui::Shape::line(
         pts,
-        Stroke::new(1.2, Color32::from_rgb(220, 200, 90)),
+        Stroke::new(1.2, super::theme::NOVELTY),
     ));
 }

@@ -2,6 +2,7 @@
 //! playhead is, the layout, recent campaigns and the annotator's name. Domain data (the
 //! campaign, scores, corrections) never lives here.
 
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
@@ -100,6 +101,9 @@ pub struct UiState {
     pub budget: usize,
     /// Whether the left panel shows the review list instead of the episodes.
     pub review_tab: bool,
+    /// Per annotator, the day (UTC, `YYYY-MM-DD`) they last put the desk's safety caution
+    /// away: it is shown again on their next day, and to every other annotator.
+    pub caution_read: BTreeMap<String, String>,
 }
 
 impl Default for UiState {
@@ -117,6 +121,7 @@ impl Default for UiState {
             layout: Layout::default(),
             budget: DEFAULT_BUDGET,
             review_tab: false,
+            caution_read: BTreeMap::new(),
         }
     }
 }
@@ -134,6 +139,25 @@ impl UiState {
         self.recent.insert(0, dir.to_path_buf());
         self.recent.truncate(RECENT_CAP);
     }
+
+    /// Whether the desk shows the safety caution to `annotator` on `day`: until they put it
+    /// away that day.
+    pub fn caution_due(&self, annotator: &str, day: &str) -> bool {
+        self.caution_read.get(annotator).map(String::as_str) != Some(day)
+    }
+
+    /// Records that `annotator` put the caution away on `day` (one entry per annotator).
+    pub fn caution_put_away(&mut self, annotator: &str, day: &str) {
+        self.caution_read.insert(annotator.into(), day.into());
+    }
+}
+
+/// Today's date in UTC as `YYYY-MM-DD`, the day the desk's caution is remembered for.
+pub fn today() -> String {
+    crate::ledger::utc_timestamp()
+        .get(..10)
+        .unwrap_or_default()
+        .to_string()
 }
 
 #[cfg(test)]
@@ -149,6 +173,27 @@ mod tests {
         let names: Vec<_> = s.recent.iter().map(|p| p.to_string_lossy()).collect();
         assert_eq!(names, ["c", "a", "b"]);
         assert_eq!(s.campaign.as_deref(), Some(Path::new("c")));
+    }
+
+    #[test]
+    fn the_caution_returns_on_a_new_day_and_for_another_annotator() {
+        let mut s = UiState::default();
+        assert!(s.caution_due("ana", "2026-12-02"));
+        s.caution_put_away("ana", "2026-12-02");
+        assert!(!s.caution_due("ana", "2026-12-02"));
+        assert!(s.caution_due("ana", "2026-12-03"));
+        assert!(s.caution_due("ben", "2026-12-02"));
+        s.caution_put_away("ana", "2026-12-03");
+        assert_eq!(s.caution_read.len(), 1, "one entry per annotator");
+        let back: UiState = serde_json::from_str(&serde_json::to_string(&s).unwrap()).unwrap();
+        assert!(!back.caution_due("ana", "2026-12-03"));
+    }
+
+    #[test]
+    fn today_is_a_calendar_date() {
+        let d = today();
+        assert_eq!(d.len(), 10, "{d}");
+        assert_eq!((&d[4..5], &d[7..8]), ("-", "-"), "{d}");
     }
 
     #[test]

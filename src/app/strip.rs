@@ -12,12 +12,9 @@ use super::commands::Command;
 use super::texts;
 use super::workbench::Workbench;
 
-const EXCURSION_FILL: Color32 = Color32::from_rgba_premultiplied(60, 54, 16, 40);
-const INTERVENTION_FILL: Color32 = Color32::from_rgba_premultiplied(24, 56, 90, 56);
-const LEARNER: Color32 = Color32::from_rgb(120, 180, 240);
-const EXPERT: Color32 = Color32::from_rgb(240, 170, 60);
-const NOVELTY: Color32 = Color32::from_rgb(220, 200, 90);
-const CORRECTED: Color32 = Color32::from_rgb(150, 230, 150);
+use super::theme::{
+    CORRECTED, EXCURSION_FILL, EXPERT, FLAG, INTERVENTION_FILL, LEARNER, NOVELTY, PLAYHEAD,
+};
 
 impl Workbench {
     /// What the strip reports about the step under the playhead, in one line.
@@ -179,10 +176,7 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             spans_ui(p, &s.excursions, "excursion", EXCURSION_FILL);
             if let Some(sig) = signals {
                 p.line(Line::new("novelty", s.novelty.as_slice()).color(NOVELTY));
-                p.hline(
-                    HLine::new("flag threshold", sig.threshold as f64)
-                        .color(Color32::from_rgb(200, 90, 80)),
-                );
+                p.hline(HLine::new("flag threshold", sig.threshold as f64).color(FLAG));
             } else {
                 p.text(egui_plot::Text::new(
                     "hint",
@@ -196,7 +190,7 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
                     p.vline(VLine::new("corrected", t).color(CORRECTED).width(1.0));
                 }
             }
-            p.vline(VLine::new("playhead", now).color(Color32::WHITE).width(1.5));
+            p.vline(VLine::new("playhead", now).color(PLAYHEAD).width(1.5));
         });
     scrub(&resp, ts, cmds);
     let Some(camp) = wb.campaign() else { return };
@@ -227,7 +221,7 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             if let Some(ex) = s.expert.get(c) {
                 p.line(Line::new("demonstrations nearby", ex.as_slice()).color(EXPERT));
             }
-            p.vline(VLine::new("playhead", now).color(Color32::WHITE).width(1.5));
+            p.vline(VLine::new("playhead", now).color(PLAYHEAD).width(1.5));
         });
         scrub(&resp, ts, cmds);
     }
@@ -241,7 +235,7 @@ fn legend_ui(ui: &mut egui::Ui) {
             ui.small(text);
         };
         key(ui, NOVELTY, "novelty");
-        key(ui, Color32::from_rgb(200, 90, 80), "flag threshold");
+        key(ui, FLAG, "flag threshold");
         key(ui, EXCURSION_FILL.to_opaque(), "excursion");
         key(ui, INTERVENTION_FILL.to_opaque(), "expert in control");
         key(ui, CORRECTED, "corrected");

@@ -148,6 +148,7 @@ fn ledger(c: &Campaign, who: &str, every: usize, offset: f64) -> AnnotatorLedger
         incomplete_tail: 0,
         stamp: None,
         sha256: String::new(),
+        bytes: 0,
     }
 }
 
@@ -172,6 +173,7 @@ fn bench_export(dir: &Path, rows: usize) {
             number: 1,
             steps: table(rows / 4, 0.5),
         }],
+        inputs: Vec::new(),
     };
     let ledgers = [ledger(&c, "ana", 4, 0.1), ledger(&c, "ben", 5, 0.2)];
     let t0 = Instant::now();

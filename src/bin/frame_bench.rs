@@ -122,6 +122,7 @@ fn campaign(steps: usize, demos: usize) -> Campaign {
             number: 1,
             steps: table(steps, 1, 0.41, 1.5),
         }],
+        inputs: Vec::new(),
     }
 }
 

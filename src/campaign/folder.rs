@@ -4,6 +4,7 @@ use std::fs::File;
 use std::path::{Path, PathBuf};
 
 use super::confine::{Confinement, Refused, confined};
+use super::digest::{FileDigest, HashingReader, digest_open_file, slash_name};
 use super::error::{CampaignError, Location, Problem, ProblemKind, ProblemLog, Severity};
 use super::jsonl::read_jsonl;
 use super::numpy::{NpySetSource, NpzSource, read_numpy};
@@ -164,6 +165,11 @@ fn read_spec_bytes(root: &Path) -> Result<Vec<u8>, (ProblemKind, String)> {
 
 /// Reads and checks `campaign.json`.
 pub fn read_campaign_file(root: &Path) -> Result<CampaignFile, Problem> {
+    read_campaign_file_digest(root).map(|(f, _)| f)
+}
+
+/// Reads and checks `campaign.json`; also gives the digest of the bytes read.
+fn read_campaign_file_digest(root: &Path) -> Result<(CampaignFile, FileDigest), Problem> {
     let rel = PathBuf::from(CAMPAIGN_FILE);
     let problem = |loc, field: &str, kind, message: String| Problem {
         severity: Severity::Error,
@@ -175,7 +181,10 @@ pub fn read_campaign_file(root: &Path) -> Result<CampaignFile, Problem> {
     };
     let text =
         read_spec_bytes(root).map_err(|(kind, msg)| problem(Location::File, "", kind, msg))?;
-    parse_campaign_file(&text)
+    let mut h = HashingReader::new(text.as_slice());
+    let _ = std::io::copy(&mut h, &mut std::io::sink());
+    let digest = h.digest(CAMPAIGN_FILE.to_string());
+    parse_campaign_file(&text).map(|f| (f, digest))
 }
 
 /// Parses and checks the bytes of `campaign.json`; the problem names line and field.
@@ -228,7 +237,8 @@ pub fn parse_campaign_file(text: &[u8]) -> Result<CampaignFile, Problem> {
     Ok(file)
 }
 
-/// Loads one data file into the builder.
+/// Loads one data file into the builder; returns the digests of the files read (taken from
+/// the bytes read, see [`super::digest`]).
 pub fn read_data_file(
     root: &Path,
     f: &DataFile,
@@ -236,7 +246,7 @@ pub fn read_data_file(
     b: &mut StepTableBuilder,
     log: &mut ProblemLog,
     progress: &Progress,
-) {
+) -> Vec<FileDigest> {
     b.begin_source(f.rel.clone());
     let before = b.len();
     let data_dir = f.rel.parent().unwrap_or(Path::new("")).to_path_buf();
@@ -248,39 +258,59 @@ pub fn read_data_file(
                 _ => ProblemKind::Unreadable,
             };
             log.error(kind, Location::File, "", e.to_string());
-            return;
+            return Vec::new();
         }
     };
+    let name = slash_name(&f.rel);
+    let cannot_open = |log: &mut ProblemLog, e: std::io::Error| {
+        log.error(
+            ProblemKind::Unreadable,
+            Location::File,
+            "",
+            format!("cannot open: {e}"),
+        )
+    };
+    let mut digests = Vec::new();
     match f.format {
         DataFormat::JsonLines | DataFormat::Csv => match File::open(&path) {
-            Ok(file) if f.format == DataFormat::JsonLines => {
-                read_jsonl(file, &data_dir, checker, b, log, progress)
+            Ok(file) => {
+                let mut h = HashingReader::new(file);
+                if f.format == DataFormat::JsonLines {
+                    read_jsonl(&mut h, &data_dir, checker, b, log, progress);
+                } else {
+                    super::csv::read_csv(&mut h, &data_dir, checker, b, log, progress);
+                }
+                digests.push(h.digest(name));
             }
-            Ok(file) => super::csv::read_csv(file, &data_dir, checker, b, log, progress),
-            Err(e) => log.error(
-                ProblemKind::Unreadable,
-                Location::File,
-                "",
-                format!("cannot open: {e}"),
-            ),
+            Err(e) => cannot_open(log, e),
         },
-        DataFormat::Npz => match NpzSource::open(&path) {
-            Ok(mut src) => read_numpy(&mut src, &data_dir, checker, b, log, progress),
-            Err(msg) => log.error(ProblemKind::MalformedNumpy, Location::File, "", msg),
+        DataFormat::Npz => match File::open(&path) {
+            Ok(mut file) => match digest_open_file(&mut file, name) {
+                Ok(d) => {
+                    digests.push(d);
+                    match NpzSource::new(std::io::BufReader::new(file)) {
+                        Ok(mut src) => read_numpy(&mut src, &data_dir, checker, b, log, progress),
+                        Err(msg) => log.error(ProblemKind::MalformedNumpy, Location::File, "", msg),
+                    }
+                }
+                Err(e) => cannot_open(log, e),
+            },
+            Err(e) => cannot_open(log, e),
         },
         DataFormat::NpySet => {
-            let name = f
+            let file_name = f
                 .rel
                 .file_name()
                 .map(|n| n.to_string_lossy().into_owned())
                 .unwrap_or_default();
-            let stem = name.trim_end_matches(".states.npy").to_string();
+            let stem = file_name.trim_end_matches(".states.npy").to_string();
             let mut src = NpySetSource {
                 root: root.to_path_buf(),
                 dir: data_dir.clone(),
-                stem,
+                stem: stem.clone(),
             };
             read_numpy(&mut src, &data_dir, checker, b, log, progress);
+            digests = npy_set_digests(root, &data_dir, &stem);
         }
     }
     if b.len() == before && log.error_count() == 0 {
@@ -291,6 +321,30 @@ pub fn read_data_file(
             "the file holds no steps",
         );
     }
+    digests
+}
+
+/// Digests of the `.npy` files of one set (each file read once more, after loading: the
+/// set's arrays are opened one by one by name).
+fn npy_set_digests(root: &Path, data_dir: &Path, stem: &str) -> Vec<FileDigest> {
+    let prefix = format!("{stem}.");
+    let Ok(entries) = std::fs::read_dir(root.join(data_dir)) else {
+        return Vec::new();
+    };
+    let mut names: Vec<String> = entries
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with(&prefix) && n.ends_with(".npy"))
+        .collect();
+    names.sort();
+    names
+        .into_iter()
+        .filter_map(|n| {
+            let rel = data_dir.join(&n);
+            let mut file = File::open(confined(root, &rel).ok()?).ok()?;
+            digest_open_file(&mut file, slash_name(&rel)).ok()
+        })
+        .collect()
 }
 
 fn load_table(
@@ -301,14 +355,15 @@ fn load_table(
     progress: &Progress,
     problems: &mut Vec<Problem>,
     more: &mut usize,
-) -> Option<StepTable> {
+) -> (Option<StepTable>, Vec<FileDigest>) {
+    let mut inputs = Vec::new();
     if let Err(e @ Refused::Outside(_)) = confined(root, rel_dir) {
         problems.push(folder_problem(
             rel_dir,
             ProblemKind::OutsideCampaign,
             e.to_string(),
         ));
-        return None;
+        return (None, inputs);
     }
     let files = match data_files(root, rel_dir) {
         Ok(f) => f,
@@ -318,7 +373,7 @@ fn load_table(
                 ProblemKind::Unreadable,
                 format!("cannot list the folder: {e}"),
             ));
-            return None;
+            return (None, inputs);
         }
     };
     if files.is_empty() {
@@ -327,7 +382,7 @@ fn load_table(
             ProblemKind::Empty,
             "no .jsonl, .csv, .npz or .states.npy file".into(),
         ));
-        return None;
+        return (None, inputs);
     }
     let mut b = StepTableBuilder::new(file.spec.state_dim(), file.spec.action_dim());
     b.set_record_cap(opts.record_cap);
@@ -335,18 +390,25 @@ fn load_table(
     let mut ok = true;
     for f in &files {
         let mut log = ProblemLog::new(&f.rel, opts.problem_cap);
-        read_data_file(root, f, &mut checker, &mut b, &mut log, progress);
+        inputs.extend(read_data_file(
+            root,
+            f,
+            &mut checker,
+            &mut b,
+            &mut log,
+            progress,
+        ));
         ok &= log.error_count() == 0 && (!opts.strict || log.warning_count() == 0);
         let (kept, dropped) = log.finish();
         problems.extend(kept);
         *more += dropped;
         if progress.is_cancelled() {
-            return None;
+            return (None, inputs);
         }
     }
     let table = b.finish();
     ok &= check_frames(root, &table, opts, problems, more);
-    ok.then_some(table)
+    (ok.then_some(table), inputs)
 }
 
 fn check_frames(
@@ -432,7 +494,7 @@ fn total_bytes(root: &Path) -> u64 {
 pub fn check_campaign(root: &Path, opts: &LoadOptions, progress: &Progress) -> CheckReport {
     let mut problems = Vec::new();
     let mut more = 0;
-    let file = match read_campaign_file(root) {
+    let (file, spec_digest) = match read_campaign_file_digest(root) {
         Ok(f) => f,
         Err(p) => {
             return CheckReport {
@@ -443,7 +505,8 @@ pub fn check_campaign(root: &Path, opts: &LoadOptions, progress: &Progress) -> C
         }
     };
     progress.stage("loading", total_bytes(root));
-    let demos = load_table(
+    let mut inputs = vec![spec_digest];
+    let (demos, read) = load_table(
         root,
         Path::new(DEMONSTRATIONS_DIR),
         &file,
@@ -452,13 +515,17 @@ pub fn check_campaign(root: &Path, opts: &LoadOptions, progress: &Progress) -> C
         &mut problems,
         &mut more,
     );
+    inputs.extend(read);
     let mut rounds = Vec::new();
     let mut rounds_ok = true;
     match round_numbers(root) {
         Ok(ns) => {
             for n in ns {
                 let rel = Path::new(ROUNDS_DIR).join(n.to_string());
-                match load_table(root, &rel, &file, opts, progress, &mut problems, &mut more) {
+                let (loaded, read) =
+                    load_table(root, &rel, &file, opts, progress, &mut problems, &mut more);
+                inputs.extend(read);
+                match loaded {
                     Some(steps) => rounds.push(Round { number: n, steps }),
                     None => rounds_ok = false,
                 }
@@ -479,6 +546,7 @@ pub fn check_campaign(root: &Path, opts: &LoadOptions, progress: &Progress) -> C
             file,
             demonstrations,
             rounds,
+            inputs,
         }),
         _ => None,
     };

@@ -8,6 +8,7 @@
 mod accept;
 pub mod confine;
 pub mod csv;
+pub mod digest;
 pub mod error;
 pub mod folder;
 pub mod frame;
@@ -50,6 +51,9 @@ pub struct Campaign {
     pub demonstrations: StepTable,
     /// The rounds, by ascending number.
     pub rounds: Vec<Round>,
+    /// Digests of the files loaded (`campaign.json` and every data file), taken from the bytes
+    /// read while loading; empty for a campaign built in memory.
+    pub inputs: Vec<digest::FileDigest>,
 }
 
 impl Campaign {

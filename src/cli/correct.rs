@@ -156,6 +156,45 @@ fn print_open_report(report: &OpenReport) {
     }
 }
 
+/// Prints a warning for every entry of `ledgers/` that is not read as a ledger.
+pub fn warn_skipped_ledgers(root: &Path) {
+    for s in crate::ledger::skipped_entries(root) {
+        eprintln!("warning: {s}");
+    }
+}
+
+/// Checks that the correction `seq` to be retracted is of the step given (when any of
+/// `--round`, `--episode`, `--t` is given): a mistyped number must not withdraw another
+/// step's correction.
+fn check_retraction(a: &CorrectArgs, ledger: &Ledger, seq: u64) -> Result<(), CliError> {
+    let Some(c) = ledger
+        .records()
+        .iter()
+        .find(|r| r.seq == seq)
+        .and_then(Record::correction)
+    else {
+        return Ok(()); // the ledger refuses it with its own message
+    };
+    let mut wrong = Vec::new();
+    if a.round.is_some_and(|r| r != c.round) {
+        wrong.push(format!("round {}", c.round));
+    }
+    if a.episode.as_ref().is_some_and(|e| *e != c.episode) {
+        wrong.push(format!("episode `{}`", c.episode));
+    }
+    if a.t.is_some_and(|t| t != c.t) {
+        wrong.push(format!("t {}", c.t));
+    }
+    if wrong.is_empty() {
+        return Ok(());
+    }
+    Err(CliError::invalid(format!(
+        "{}: record #{seq} is of {}, not the step given; nothing was written",
+        ledger.path().display(),
+        wrong.join(", ")
+    )))
+}
+
 /// Loads a campaign for a subcommand, printing its problems on failure.
 pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     let root = campaign_dir(dir)?;
@@ -192,6 +231,10 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
     let (mut ledger, report) =
         Ledger::open(&c.root, &annotator).map_err(|e| CliError::usage(e.to_string()))?;
     print_open_report(&report);
+    warn_skipped_ledgers(&c.root);
+    if let Err(seq) = correction {
+        check_retraction(&a, &ledger, seq)?;
+    }
     let record = match correction {
         Ok(corr) => ledger.append(corr),
         Err(seq) => ledger.retract(seq),

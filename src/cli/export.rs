@@ -93,6 +93,7 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
     let opts = options(&a)?;
     let c = load(&a.dir)?;
     let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
+    super::correct::warn_skipped_ledgers(&c.root);
     let t = tally(&c, &ledgers);
     let progress = Progress::new();
     let m = {
@@ -123,6 +124,5 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         );
     }
     println!("manifest: {}", manifest_path(&a.out).display());
-    println!("caution: {}", m.safety);
     Ok(())
 }

@@ -64,6 +64,13 @@ pub enum Command {
 /// Parses the arguments and runs the program.
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
+    if cli
+        .command
+        .as_ref()
+        .is_some_and(Command::leads_to_a_learner)
+    {
+        print_caution();
+    }
     let result = match cli.command {
         None => no_subcommand(),
         #[cfg(feature = "gui")]
@@ -91,6 +98,28 @@ pub fn main() -> ExitCode {
             ExitCode::from(e.code)
         }
     }
+}
+
+impl Command {
+    /// Whether the command is a step toward running a learner on real hardware (planning,
+    /// correcting, exporting the next training set, or the demo and study that model it):
+    /// these print the safety caution.
+    pub fn leads_to_a_learner(&self) -> bool {
+        matches!(
+            self,
+            Command::Plan(_)
+                | Command::Correct(_)
+                | Command::Export(_)
+                | Command::Demo(_)
+                | Command::Study(_)
+        )
+    }
+}
+
+/// Prints the safety caution on standard error, as one line (standard output stays the
+/// command's own result).
+pub fn print_caution() {
+    eprintln!("caution: {}", crate::SAFETY_CAUTION);
 }
 
 /// Without a subcommand: the workbench, or (built without the `gui` feature) a usage note.

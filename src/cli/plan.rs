@@ -109,6 +109,7 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
 /// Rows of the round with a standing verdict in any annotator's ledger, each once.
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>, CliError> {
     let ledgers = read_ledgers(&c.root).map_err(|e| CliError::invalid(e.to_string()))?;
+    super::correct::warn_skipped_ledgers(&c.root);
     let mut rows: Vec<usize> = ledgers
         .iter()
         .flat_map(|l| judgements(steps, round, &l.records))

@@ -1,6 +1,5 @@
 //! `countersteer study DIR`: the labelling-strategy study on the demo scenario.
 
-use std::fs::File;
 use std::path::PathBuf;
 
 use clap::Args;
@@ -84,8 +83,8 @@ pub fn run(a: StudyArgs) -> Result<(), CliError> {
     };
     print_table(&rows);
     let csv = out.join("results.csv");
-    let f = File::create(&csv).map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
-    write_csv(&rows, f).map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
+    crate::durable::write_file(&csv, |w| write_csv(&rows, w))
+        .map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
     let png = out.join("departures.png");
     write_plot(&rows, &png).map_err(|e| CliError::usage(format!("{}: {e}", png.display())))?;
     println!("wrote {} and {}", csv.display(), png.display());

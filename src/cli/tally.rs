@@ -111,6 +111,7 @@ fn print_set_apart(t: &Tally) {
 pub fn run(a: TallyArgs) -> Result<(), CliError> {
     let c = load(&a.dir)?;
     let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
+    super::correct::warn_skipped_ledgers(&c.root);
     let t = tally(&c, &ledgers);
     let who: Vec<String> = t
         .ledgers

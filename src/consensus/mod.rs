@@ -62,6 +62,8 @@ pub struct LedgerSource {
     pub path: std::path::PathBuf,
     /// SHA-256 (hex) of the bytes that were read.
     pub sha256: String,
+    /// How many bytes were read.
+    pub bytes: u64,
     /// Well-formed records read.
     pub records: usize,
 }
@@ -145,6 +147,7 @@ pub fn tally(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Tally {
                 annotator: l.annotator.clone(),
                 path: l.path.clone(),
                 sha256: l.sha256.clone(),
+                bytes: l.bytes,
                 records: l.records.len(),
             })
             .collect(),

@@ -8,21 +8,11 @@ use serde::{Deserialize, Serialize};
 
 use super::rows::{Excluded, MergedSet, RowSource};
 use super::{ExportOptions, Format};
+use crate::campaign::Campaign;
 use crate::campaign::Spec;
-use crate::campaign::folder::{CAMPAIGN_FILE, DEMONSTRATIONS_DIR, ROUNDS_DIR};
 use crate::consensus::Tally;
-use crate::ledger::sha256_hex;
 
-/// A file and its SHA-256.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
-pub struct FileDigest {
-    /// Path relative to the campaign folder (inputs) or file name (the output), `/`-separated.
-    pub file: String,
-    /// Size in bytes.
-    pub bytes: u64,
-    /// SHA-256, lowercase hex.
-    pub sha256: String,
-}
+pub use crate::campaign::digest::FileDigest;
 
 /// Row counts of the merged set.
 #[derive(Debug, Clone, Default, PartialEq, Eq, Serialize, Deserialize)]
@@ -113,49 +103,24 @@ fn rel_name(root: &Path, p: &Path) -> String {
     parts.join("/")
 }
 
-/// Digest of a file on disk.
+/// Digest of a file on disk, read once in blocks (never whole into memory).
 pub fn digest_file(root: &Path, path: &Path) -> std::io::Result<FileDigest> {
-    let bytes = std::fs::read(path)?;
-    Ok(FileDigest {
-        file: rel_name(root, path),
-        bytes: bytes.len() as u64,
-        sha256: sha256_hex(&bytes),
-    })
-}
-
-fn files_in(dir: &Path, out: &mut Vec<PathBuf>) -> std::io::Result<()> {
-    if !dir.is_dir() {
-        return Ok(());
-    }
-    for e in std::fs::read_dir(dir)? {
-        let e = e?;
-        let name = e.file_name();
-        if e.file_type()?.is_file() && !name.to_string_lossy().starts_with('.') {
-            out.push(e.path());
-        }
-    }
-    Ok(())
+    let file = std::fs::File::open(path)?;
+    crate::campaign::digest::digest_reader(file, rel_name(root, path))
 }
 
 /// Digests of the campaign's data inputs (`campaign.json`, demonstrations, round files; not
-/// frame images) and of the ledgers as they were read for the tally, sorted by path.
-pub fn input_digests(root: &Path, tally: &Tally) -> std::io::Result<Vec<FileDigest>> {
-    let mut paths = vec![root.join(CAMPAIGN_FILE)];
-    files_in(&root.join(DEMONSTRATIONS_DIR), &mut paths)?;
-    for n in crate::campaign::folder::round_numbers(root)? {
-        files_in(&root.join(ROUNDS_DIR).join(n.to_string()), &mut paths)?;
-    }
-    let mut out = paths
-        .iter()
-        .map(|p| digest_file(root, p))
-        .collect::<std::io::Result<Vec<_>>>()?;
+/// frame images) as they were read when the campaign was loaded, and of the ledgers as they
+/// were read for the tally, sorted by path. No file is read again here.
+pub fn input_digests(campaign: &Campaign, tally: &Tally) -> Vec<FileDigest> {
+    let mut out = campaign.inputs.clone();
     out.extend(tally.ledgers.iter().map(|l| FileDigest {
-        file: rel_name(root, &l.path),
-        bytes: std::fs::metadata(&l.path).map_or(0, |m| m.len()),
+        file: rel_name(&campaign.root, &l.path),
+        bytes: l.bytes,
         sha256: l.sha256.clone(),
     }));
     out.sort_by(|a, b| a.file.cmp(&b.file));
-    Ok(out)
+    out
 }
 
 pub(crate) fn row_counts(m: &MergedSet) -> RowCounts {

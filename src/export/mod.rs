@@ -1,18 +1,18 @@
 //! The merged-set export: demonstrations plus consensus corrections, one row per state, with
 //! provenance, in JSON Lines, CSV or NumPy `.npz`, and a manifest beside it.
 //!
-//! Writes are atomic (temporary file, fsync, rename; a failed or cancelled export leaves no
-//! file under the final name) and deterministic (same inputs and options, same bytes: rows in
+//! Writes go through [`crate::durable`] (temporary file, fsync, rename, folder fsync; a failed
+//! or cancelled export leaves no file under the final name) and are deterministic (same inputs and options, same bytes: rows in
 //! a fixed order, no clock time, `.npz` members with a fixed date).
 //!
 //! Weights: every row weighs 1 by default. [`Weighting::Agreement`] multiplies a correction's
 //! weight by its step agreement (steps with one annotator keep 1), and
 //! [`ExportOptions::correction_weight`] scales all correction rows.
 
-mod atomic;
 pub mod manifest;
 pub mod read;
 pub mod rows;
+pub mod target;
 pub mod write;
 
 use std::path::{Path, PathBuf};
@@ -24,8 +24,8 @@ pub use rows::{Excluded, MergedSet, RowSource, merge};
 
 use crate::campaign::Campaign;
 use crate::consensus::Tally;
+use crate::durable::Staged;
 use crate::progress::Progress;
-use atomic::Staged;
 
 /// File format of a merged set.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -159,14 +159,8 @@ pub fn export(
 ) -> Result<Manifest, ExportError> {
     progress.stage("merging", tally.steps.len() as u64);
     let (merged, excluded) = merge(campaign, tally, opts);
-    let inputs =
-        manifest::input_digests(&campaign.root, tally).map_err(|source| ExportError::Io {
-            path: campaign.root.clone(),
-            source,
-        })?;
-    if let Some(dir) = out.parent().filter(|d| !d.as_os_str().is_empty()) {
-        std::fs::create_dir_all(dir).map_err(io_err(dir, progress))?;
-    }
+    let inputs = manifest::input_digests(campaign, tally);
+    target::prepare(&campaign.root, out).map_err(io_err(out, progress))?;
     progress.stage("writing", merged.len() as u64);
     let spec = campaign.spec();
     let staged = Staged::write(out, |w| match opts.format {

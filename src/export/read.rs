@@ -17,9 +17,61 @@ fn bad(at: Option<u64>, field: &str, message: impl Into<String>) -> Bad {
     (at, field.to_string(), message.into())
 }
 
-/// Reads a merged set written by [`super::export`]; the format follows the file's extension.
-/// The spec names the columns and turns discrete choice names back into indices.
+/// Largest manifest read back: a manifest lists a campaign's files, a few kilobytes each.
+const MAX_MANIFEST_BYTES: u64 = 64 << 20;
+
+/// Reads a merged set written by [`super::export`], after checking that the manifest beside
+/// it describes exactly this file (its size and SHA-256). An export publishes the data first
+/// and its manifest last, so an export interrupted between the two leaves a pair that this
+/// check refuses: a reader never takes rows from a file its manifest does not describe.
+/// The format follows the file's extension; the spec names the columns and turns discrete
+/// choice names back into indices.
 pub fn read_merged(path: &Path, spec: &Spec) -> Result<MergedSet, ExportError> {
+    check_manifest(path)?;
+    read_rows(path, spec)
+}
+
+fn check_manifest(path: &Path) -> Result<(), ExportError> {
+    use std::io::Read;
+    let mpath = super::manifest_path(path);
+    let invalid = |message: String| ExportError::Invalid {
+        path: path.to_path_buf(),
+        location: None,
+        field: "manifest".into(),
+        message,
+    };
+    let mut text = Vec::new();
+    std::fs::File::open(&mpath)
+        .and_then(|f| f.take(MAX_MANIFEST_BYTES).read_to_end(&mut text))
+        .map_err(|e| {
+            invalid(format!(
+                "{} cannot be read ({e}); the export did not finish: export again",
+                mpath.display()
+            ))
+        })?;
+    let m: super::Manifest = serde_json::from_slice(&text)
+        .map_err(|e| invalid(format!("{} is no manifest: {e}", mpath.display())))?;
+    let d =
+        super::manifest::digest_file(Path::new(""), path).map_err(|source| ExportError::Io {
+            path: path.to_path_buf(),
+            source,
+        })?;
+    let (bytes, sha) = (d.bytes, d.sha256);
+    if bytes != m.output.bytes || sha != m.output.sha256 {
+        return Err(invalid(format!(
+            "{} describes another file ({} bytes, SHA-256 {}; this one has {bytes} bytes, \
+             {sha}): an export was interrupted between the data and its manifest; export again",
+            mpath.display(),
+            m.output.bytes,
+            m.output.sha256
+        )));
+    }
+    Ok(())
+}
+
+/// Reads the rows of a merged-set file without looking for its manifest (a file written
+/// with [`super::write`] directly).
+pub fn read_rows(path: &Path, spec: &Spec) -> Result<MergedSet, ExportError> {
     let invalid = |(location, field, message): Bad| ExportError::Invalid {
         path: path.to_path_buf(),
         location,

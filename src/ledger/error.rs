@@ -47,12 +47,29 @@ pub enum LedgerError {
         /// What changed.
         detail: String,
     },
-    /// The ledger's name is a link: ledgers are plain files (readers skip links), so that no
-    /// correction is written to a place outside the campaign.
-    #[error("{} is a link; a ledger must be a plain file in the ledgers folder", path.display())]
+    /// The ledger's name (or its lock's, or the ledgers folder's) is a link: ledgers are plain
+    /// files in a real folder (readers skip links), so that no correction is written to a
+    /// place outside the campaign.
+    #[error("{} is a link; a ledger, its lock and the ledgers folder must be plain files and folders inside the campaign", path.display())]
     IsLink {
         /// The ledger file.
         path: PathBuf,
+    },
+    /// A file the ledger writes (the ledger or its lock) exists and is not a regular file (a
+    /// device node, a fifo, a folder): it is never written.
+    #[error("{} is not a regular file; a ledger and its lock must be plain files", path.display())]
+    NotAFile {
+        /// The file.
+        path: PathBuf,
+    },
+    /// A record's sequence number cannot follow the last one (the ledger holds the largest
+    /// number there is); nothing was written.
+    #[error("{}: field `seq`: no sequence number follows {last}; nothing was written", path.display())]
+    SeqExhausted {
+        /// The ledger file.
+        path: PathBuf,
+        /// The last sequence number.
+        last: u64,
     },
     /// The ledger file is larger than any ledger written by hand could be.
     #[error(

@@ -3,7 +3,8 @@
 //! The lock is `std::fs::File::try_lock` (an `flock` on Unix) on a side file
 //! `ledgers/<annotator>.lock`; the operating system releases it when the holder exits, even
 //! when it is killed. The holder writes its pid, host and start time into the file so that a
-//! refused writer can say who holds it.
+//! refused writer can say who holds it. The lock file is opened without following a link
+//! and must be a regular file: a link or a device under its name is refused, never written.
 
 use std::fs::{File, OpenOptions, TryLockError};
 use std::io::{Read, Seek, Write};
@@ -11,16 +12,31 @@ use std::path::Path;
 
 use super::error::LedgerError;
 use super::time::utc_timestamp;
+use crate::durable::{host_name, is_link_error, open_nofollow};
 
 /// Takes the lock or says who holds it. The returned file holds the lock until dropped.
 pub(crate) fn acquire(lock_path: &Path, ledger_path: &Path) -> Result<File, LedgerError> {
-    let mut f = OpenOptions::new()
-        .read(true)
-        .write(true)
-        .create(true)
-        .truncate(false)
-        .open(lock_path)
-        .map_err(LedgerError::io(lock_path))?;
+    let mut opts = OpenOptions::new();
+    opts.read(true).write(true).create(true).truncate(false);
+    let mut f = open_nofollow(&mut opts, lock_path).map_err(|e| {
+        if is_link_error(&e) {
+            LedgerError::IsLink {
+                path: lock_path.to_path_buf(),
+            }
+        } else {
+            LedgerError::io(lock_path)(e)
+        }
+    })?;
+    if !f
+        .metadata()
+        .map_err(LedgerError::io(lock_path))?
+        .file_type()
+        .is_file()
+    {
+        return Err(LedgerError::NotAFile {
+            path: lock_path.to_path_buf(),
+        });
+    }
     match f.try_lock() {
         Ok(()) => {}
         Err(TryLockError::WouldBlock) => {
@@ -53,15 +69,4 @@ fn holder_of(f: &mut File) -> String {
         Ok(_) if !s.trim().is_empty() => s.trim().to_string(),
         _ => "another process, which has not said who it is yet".into(),
     }
-}
-
-/// This machine's host name, as the kernel reports it.
-pub(crate) fn host_name() -> String {
-    std::fs::read_to_string("/proc/sys/kernel/hostname")
-        .ok()
-        .or_else(|| std::env::var("HOSTNAME").ok())
-        .or_else(|| std::env::var("COMPUTERNAME").ok())
-        .map(|s| s.trim().to_string())
-        .filter(|s| !s.is_empty())
-        .unwrap_or_else(|| "unknown".into())
 }

@@ -24,8 +24,8 @@ mod time;
 pub use error::{LedgerError, LedgerProblem};
 pub use fingerprint::fingerprint;
 pub use read::{
-    AnnotatorLedger, FileStamp, ledger_path, ledger_stamps, parse_ledger, read_ledger,
-    read_ledgers, sha256_hex,
+    AnnotatorLedger, FileStamp, SkippedEntry, ledger_path, ledger_stamps, parse_ledger,
+    read_ledger, read_ledgers, sha256_hex, skipped_entries,
 };
 pub use record::{ActionValue, Correction, Entry, Record, Retraction, Verdict};
 pub use store::{Ledger, OpenReport, SetAside};

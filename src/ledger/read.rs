@@ -53,6 +53,8 @@ pub struct AnnotatorLedger {
     pub stamp: Option<FileStamp>,
     /// SHA-256 (hex) of the bytes read, for provenance in exports.
     pub sha256: String,
+    /// How many bytes were read.
+    pub bytes: u64,
 }
 
 impl AnnotatorLedger {
@@ -75,63 +77,124 @@ impl AnnotatorLedger {
 pub(crate) struct Parsed {
     pub records: Vec<Record>,
     pub problems: Vec<LedgerProblem>,
-    /// Length of the part that ends with the last newline.
+    /// Length of the part that ends with the last newline, or of all bytes when the last
+    /// line is a whole record missing only its newline.
     pub whole_len: usize,
     /// 1-based line number of the bytes after the last newline.
     pub tail_line: u64,
+    /// The last line is a whole record without its newline: kept, and a writer adds the
+    /// newline before appending.
+    pub unterminated: bool,
+    /// The sequence number the next record gets (`None`: no number follows the last one).
+    pub next_seq: Option<u64>,
+}
+
+/// Whether `seq` may follow the last accepted record's `last` when `skipped` lines were left
+/// out since: it must be `last + 1`, and each line left out in between may have held one
+/// number. No arithmetic here can wrap.
+fn seq_follows(last: u64, skipped: u64, seq: u64) -> bool {
+    seq.checked_sub(last)
+        .is_some_and(|d| d >= 1 && d <= skipped.saturating_add(1))
+}
+
+struct LineParser<'a> {
+    path: &'a Path,
+    annotator: &'a str,
+    out: Parsed,
+    corrections: std::collections::HashSet<u64>,
+    last_seq: u64,
+    skipped: u64,
+}
+
+impl LineParser<'_> {
+    fn problem(&mut self, line: u64, field: &str, message: String) {
+        self.skipped = self.skipped.saturating_add(1);
+        self.out.problems.push(LedgerProblem {
+            file: self.path.to_path_buf(),
+            line,
+            field: field.to_string(),
+            message,
+        });
+    }
+
+    fn take(&mut self, line_no: u64, r: Record) {
+        let (last, skipped) = (self.last_seq, self.skipped);
+        if r.annotator != self.annotator {
+            let msg = format!("`{}` in the ledger of `{}`", r.annotator, self.annotator);
+            return self.problem(line_no, "annotator", msg);
+        }
+        if !seq_follows(last, skipped, r.seq) {
+            let expected = match (
+                last.checked_add(1),
+                last.checked_add(skipped.saturating_add(1)),
+            ) {
+                (Some(a), Some(b)) if a < b => format!("{a} to {b}, one number per line left out"),
+                (Some(a), _) => a.to_string(),
+                (None, _) => "no number (none follows the last)".into(),
+            };
+            let msg = format!("{} does not follow {last}: expected {expected}", r.seq);
+            return self.problem(line_no, "seq", msg);
+        }
+        if let Entry::Retraction(x) = &r.entry
+            && !self.corrections.contains(&x.retracts)
+        {
+            let msg = format!("#{} is no earlier correction of this ledger", x.retracts);
+            return self.problem(line_no, "retracts", msg);
+        }
+        if let Entry::Correction(_) = &r.entry {
+            self.corrections.insert(r.seq);
+        }
+        self.last_seq = r.seq;
+        self.skipped = 0;
+        self.out.records.push(r);
+    }
+
+    fn line(&mut self, line_no: u64, line: &[u8]) {
+        match serde_json::from_slice::<Record>(line) {
+            Err(e) => self.problem(line_no, "", format!("not a ledger record: {e}")),
+            Ok(r) => self.take(line_no, r),
+        }
+    }
 }
 
 /// Parses the whole lines of a ledger; records that are malformed, belong to another
-/// annotator, repeat or go back in sequence, or retract nothing are problems.
+/// annotator, do not follow the previous record's `seq` by one, or retract nothing are
+/// problems. A last line without its newline is kept when it is a whole record.
 pub(crate) fn parse(path: &Path, bytes: &[u8], annotator: &str) -> Parsed {
     let whole_len = bytes.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1);
-    let mut out = Parsed {
-        records: Vec::new(),
-        problems: Vec::new(),
-        whole_len,
-        tail_line: 1,
+    let mut p = LineParser {
+        path,
+        annotator,
+        out: Parsed {
+            records: Vec::new(),
+            problems: Vec::new(),
+            whole_len,
+            tail_line: 1,
+            unterminated: false,
+            next_seq: None,
+        },
+        corrections: std::collections::HashSet::new(),
+        last_seq: 0,
+        skipped: 0,
     };
-    let mut corrections = std::collections::HashSet::new();
-    for (i, line) in bytes[..whole_len].split(|&b| b == b'\n').enumerate() {
-        out.tail_line = i as u64 + 1;
-        if line.iter().all(u8::is_ascii_whitespace) {
-            continue;
-        }
-        let problem = |field: &str, message: String| LedgerProblem {
-            file: path.to_path_buf(),
-            line: i as u64 + 1,
-            field: field.to_string(),
-            message,
-        };
-        let last_seq = out.records.last().map_or(0, |r: &Record| r.seq);
-        match serde_json::from_slice::<Record>(line) {
-            Err(e) => out
-                .problems
-                .push(problem("", format!("not a ledger record: {e}"))),
-            Ok(r) if r.annotator != annotator => out.problems.push(problem(
-                "annotator",
-                format!("`{}` in the ledger of `{annotator}`", r.annotator),
-            )),
-            Ok(r) if r.seq <= last_seq => out.problems.push(problem(
-                "seq",
-                format!("{} does not follow {last_seq}", r.seq),
-            )),
-            Ok(r) => match &r.entry {
-                Entry::Retraction(x) if !corrections.contains(&x.retracts) => {
-                    out.problems.push(problem(
-                        "retracts",
-                        format!("#{} is no earlier correction of this ledger", x.retracts),
-                    ))
-                }
-                Entry::Retraction(_) => out.records.push(r),
-                Entry::Correction(_) => {
-                    corrections.insert(r.seq);
-                    out.records.push(r);
-                }
-            },
+    let mut line_no = 0u64;
+    for line in bytes[..whole_len].split(|&b| b == b'\n') {
+        line_no = line_no.saturating_add(1);
+        p.out.tail_line = line_no;
+        if !line.iter().all(u8::is_ascii_whitespace) {
+            p.line(line_no, line);
         }
     }
-    out
+    let tail = &bytes[whole_len..];
+    if !tail.is_empty()
+        && let Ok(r) = serde_json::from_slice::<Record>(tail)
+    {
+        p.take(p.out.tail_line, r);
+        p.out.whole_len = bytes.len();
+        p.out.unterminated = true;
+    }
+    p.out.next_seq = p.last_seq.checked_add(p.skipped.saturating_add(1));
+    p.out
 }
 
 /// SHA-256 of bytes as lowercase hex.
@@ -171,6 +234,7 @@ pub fn parse_ledger(path: &Path, annotator: &str, bytes: &[u8]) -> AnnotatorLedg
         incomplete_tail: (bytes.len() - p.whole_len) as u64,
         stamp: None,
         sha256: sha256_hex(bytes),
+        bytes: bytes.len() as u64,
     }
 }
 
@@ -186,16 +250,81 @@ pub fn read_ledgers(campaign_root: &Path) -> Result<Vec<AnnotatorLedger>, Ledger
     let mut paths = Vec::new();
     for entry in entries {
         let entry = entry.map_err(LedgerError::io(&dir))?;
-        let name = entry.file_name().to_string_lossy().into_owned();
-        if let Some(stem) = name.strip_suffix(".jsonl")
-            && check_annotator(stem).is_ok()
-            && entry.file_type().is_ok_and(|t| t.is_file())
-        {
+        if skip_reason(&entry).is_none() {
             paths.push(entry.path());
         }
     }
     paths.sort();
     paths.iter().map(|p| read_ledger(p)).collect()
+}
+
+/// An entry of `ledgers/` that is not read as a ledger, and why.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SkippedEntry {
+    /// The entry.
+    pub path: PathBuf,
+    /// Why it is not read.
+    pub reason: String,
+}
+
+impl std::fmt::Display for SkippedEntry {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "{}: not read as a ledger: {}",
+            self.path.display(),
+            self.reason
+        )
+    }
+}
+
+/// Why an entry of `ledgers/` is not a ledger; `None` for a ledger. The writer's own side
+/// files (`<annotator>.lock`, `<annotator>.jsonl.torn-<n>`) are not ledgers and need no word.
+fn skip_reason(entry: &std::fs::DirEntry) -> Option<Option<String>> {
+    let name = entry.file_name().to_string_lossy().into_owned();
+    let kind = entry.file_type().ok();
+    let Some(stem) = name.strip_suffix(".jsonl") else {
+        let own = name
+            .strip_suffix(".lock")
+            .is_some_and(|a| check_annotator(a).is_ok())
+            || name.rsplit_once(".jsonl.torn-").is_some_and(|(a, n)| {
+                check_annotator(a).is_ok() && n.bytes().all(|b| b.is_ascii_digit())
+            });
+        return Some((!own).then(|| "its name does not end in `.jsonl`".to_string()));
+    };
+    if let Err(e) = check_annotator(stem) {
+        return Some(Some(format!("{e}, so it names no annotator")));
+    }
+    match kind {
+        Some(t) if t.is_file() => None,
+        Some(t) if t.is_symlink() => {
+            Some(Some("it is a link; a ledger must be a plain file".into()))
+        }
+        Some(t) if t.is_dir() => Some(Some("it is a folder".into())),
+        _ => Some(Some("it is not a plain file".into())),
+    }
+}
+
+/// Every entry of a campaign's `ledgers/` folder that [`read_ledgers`] does not read, with
+/// the reason (a name with a space or a leading dot, a link, a folder named like a ledger,
+/// a stray file), sorted by path, so that none is ignored without a word.
+pub fn skipped_entries(campaign_root: &Path) -> Vec<SkippedEntry> {
+    let dir = campaign_root.join(LEDGERS_DIR);
+    let Ok(entries) = std::fs::read_dir(&dir) else {
+        return Vec::new();
+    };
+    let mut out: Vec<SkippedEntry> = entries
+        .flatten()
+        .filter_map(|e| {
+            let reason = skip_reason(&e)??;
+            Some(SkippedEntry {
+                path: e.path(),
+                reason,
+            })
+        })
+        .collect();
+    out.sort_by(|a, b| a.path.cmp(&b.path));
+    out
 }
 
 /// The stamps of every ledger file of a campaign, sorted by path: compare two calls to see

@@ -11,6 +11,8 @@ use super::lock::acquire;
 use super::read::{ledger_path, parse};
 use super::record::{Correction, Entry, Record, Retraction};
 use super::time::utc_timestamp;
+use crate::campaign::folder::LEDGERS_DIR;
+use crate::durable::{is_link_error, open_nofollow};
 
 /// Bytes of a torn last line that [`Ledger::open`] moved to a side file.
 #[derive(Debug, Clone, PartialEq)]
@@ -46,7 +48,8 @@ pub struct Ledger {
     len: u64,
     records: Vec<Record>,
     retracted: HashSet<u64>,
-    next_seq: u64,
+    /// The next record's sequence number; `None` when no number follows the last one.
+    next_seq: Option<u64>,
 }
 
 impl Ledger {
@@ -58,19 +61,10 @@ impl Ledger {
     ) -> Result<(Ledger, OpenReport), LedgerError> {
         check_annotator(annotator)?;
         let path = ledger_path(campaign_root, annotator);
-        let dir = path.parent().unwrap_or(campaign_root).to_path_buf();
-        std::fs::create_dir_all(&dir).map_err(LedgerError::io(&dir))?;
+        let dir = crate::durable::real_dir(campaign_root, Path::new(LEDGERS_DIR))
+            .map_err(LedgerError::io(campaign_root.join(LEDGERS_DIR)))?;
         let lock = acquire(&dir.join(format!("{annotator}.lock")), &path)?;
-        if std::fs::symlink_metadata(&path).is_ok_and(|m| m.file_type().is_symlink()) {
-            return Err(LedgerError::IsLink { path });
-        }
-        let created = !path.exists();
-        let mut file = OpenOptions::new()
-            .read(true)
-            .append(true)
-            .create(true)
-            .open(&path)
-            .map_err(LedgerError::io(&path))?;
+        let (mut file, created) = open_ledger_file(&path)?;
         if created {
             sync_dir(&dir)?;
         }
@@ -80,6 +74,9 @@ impl Ledger {
         file.read_to_end(&mut bytes)
             .map_err(LedgerError::io(&path))?;
         let parsed = parse(&path, &bytes, annotator);
+        if parsed.unterminated {
+            terminate(&mut file, &path)?;
+        }
         let set_aside = if parsed.whole_len < bytes.len() {
             let tail = &bytes[parsed.whole_len..];
             Some(set_aside(
@@ -100,7 +97,8 @@ impl Ledger {
                 Entry::Correction(_) => None,
             })
             .collect();
-        let next_seq = parsed.records.last().map_or(1, |r| r.seq + 1);
+        let next_seq = parsed.next_seq;
+        let len = parsed.whole_len as u64 + u64::from(parsed.unterminated);
         let report = OpenReport {
             records: parsed.records.len(),
             set_aside,
@@ -112,7 +110,7 @@ impl Ledger {
             annotator: annotator.to_string(),
             file,
             _lock: lock,
-            len: parsed.whole_len as u64,
+            len,
             records: parsed.records,
             retracted,
             next_seq,
@@ -129,23 +127,8 @@ impl Ledger {
     /// Either all are acknowledged or, on an error, none is kept on disk.
     pub fn append_all(&mut self, corrections: Vec<Correction>) -> Result<Vec<Record>, LedgerError> {
         let time = utc_timestamp();
-        let records: Vec<Record> = corrections
-            .into_iter()
-            .enumerate()
-            .map(|(i, c)| Record {
-                seq: self.next_seq + i as u64,
-                entry: Entry::Correction(c),
-                annotator: self.annotator.clone(),
-                time: time.clone(),
-                tool: crate::VERSION.to_string(),
-            })
-            .collect();
-        let bytes: Vec<u8> = records.iter().flat_map(Record::to_line).collect();
-        self.write_whole(&bytes)?;
-        self.len += bytes.len() as u64;
-        self.next_seq += records.len() as u64;
-        self.records.extend(records.iter().cloned());
-        Ok(records)
+        let entries: Vec<Entry> = corrections.into_iter().map(Entry::Correction).collect();
+        self.write_entries(entries, &time)
     }
 
     /// Retracts an earlier, not yet retracted correction of this ledger (undo).
@@ -172,19 +155,46 @@ impl Ledger {
     }
 
     fn write(&mut self, entry: Entry) -> Result<Record, LedgerError> {
-        let record = Record {
-            seq: self.next_seq,
-            entry,
-            annotator: self.annotator.clone(),
-            time: utc_timestamp(),
-            tool: crate::VERSION.to_string(),
-        };
-        let line = record.to_line();
-        self.write_whole(&line)?;
-        self.len += line.len() as u64;
-        self.next_seq += 1;
-        self.records.push(record.clone());
-        Ok(record)
+        let mut records = self.write_entries(vec![entry], &utc_timestamp())?;
+        records.pop().ok_or_else(|| LedgerError::SeqExhausted {
+            path: self.path.clone(),
+            last: self.records.last().map_or(0, |r| r.seq),
+        })
+    }
+
+    /// The one append path: numbers the entries from the next sequence number on (each the
+    /// previous + 1, checked), writes them with one write and one fsync, and keeps them.
+    fn write_entries(
+        &mut self,
+        entries: Vec<Entry>,
+        time: &str,
+    ) -> Result<Vec<Record>, LedgerError> {
+        let mut records = Vec::with_capacity(entries.len());
+        let mut next = self.next_seq;
+        for entry in entries {
+            let seq = next.ok_or_else(|| self.exhausted())?;
+            records.push(Record {
+                seq,
+                entry,
+                annotator: self.annotator.clone(),
+                time: time.to_string(),
+                tool: crate::VERSION.to_string(),
+            });
+            next = seq.checked_add(1);
+        }
+        let bytes: Vec<u8> = records.iter().flat_map(Record::to_line).collect();
+        self.write_whole(&bytes)?;
+        self.len += bytes.len() as u64;
+        self.next_seq = next;
+        self.records.extend(records.iter().cloned());
+        Ok(records)
+    }
+
+    fn exhausted(&self) -> LedgerError {
+        LedgerError::SeqExhausted {
+            path: self.path.clone(),
+            last: self.records.last().map_or(0, |r| r.seq),
+        }
     }
 
     /// Writes bytes at the end of the ledger and fsyncs them, after checking that the file
@@ -267,8 +277,9 @@ impl Ledger {
         &self.annotator
     }
 
-    /// The sequence number the next record will get.
-    pub fn next_seq(&self) -> u64 {
+    /// The sequence number the next record will get (`None` when no number follows the
+    /// last one: the ledger takes no more records).
+    pub fn next_seq(&self) -> Option<u64> {
         self.next_seq
     }
 }
@@ -282,6 +293,42 @@ fn same_file(a: &std::fs::Metadata, b: &std::fs::Metadata) -> bool {
 #[cfg(not(unix))]
 fn same_file(a: &std::fs::Metadata, b: &std::fs::Metadata) -> bool {
     a.len() == b.len() && a.modified().ok() == b.modified().ok()
+}
+
+/// Ends a last line that is a whole record missing only its newline, so that it is kept and
+/// the next record starts on a line of its own.
+fn terminate(file: &mut File, path: &Path) -> Result<(), LedgerError> {
+    file.write_all(b"\n")
+        .and_then(|()| file.sync_data())
+        .map_err(LedgerError::io(path))
+}
+
+/// Opens (creating when missing) a ledger file for reading and appending, never through a
+/// link; says whether it was created.
+fn open_ledger_file(path: &Path) -> Result<(File, bool), LedgerError> {
+    let created = std::fs::symlink_metadata(path).is_err();
+    let mut opts = OpenOptions::new();
+    opts.read(true).append(true).create(true);
+    let file = open_nofollow(&mut opts, path).map_err(|e| {
+        if is_link_error(&e) {
+            LedgerError::IsLink {
+                path: path.to_path_buf(),
+            }
+        } else {
+            LedgerError::io(path)(e)
+        }
+    })?;
+    if !file
+        .metadata()
+        .map_err(LedgerError::io(path))?
+        .file_type()
+        .is_file()
+    {
+        return Err(LedgerError::NotAFile {
+            path: path.to_path_buf(),
+        });
+    }
+    Ok((file, created))
 }
 
 /// Copies a torn tail to a new side file (fsync'd), then cuts it from the ledger.
@@ -315,7 +362,9 @@ fn create_side_file(path: &Path) -> Result<(File, PathBuf), LedgerError> {
         let mut name = path.as_os_str().to_owned();
         name.push(format!(".torn-{n}"));
         let p = PathBuf::from(name);
-        match OpenOptions::new().write(true).create_new(true).open(&p) {
+        let mut opts = OpenOptions::new();
+        opts.write(true).create_new(true);
+        match open_nofollow(&mut opts, &p) {
             Ok(f) => return Ok((f, p)),
             Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
             Err(e) => return Err(LedgerError::io(&p)(e)),
@@ -326,13 +375,5 @@ fn create_side_file(path: &Path) -> Result<(File, PathBuf), LedgerError> {
 
 /// Makes a directory entry durable (a new file's name survives a power cut).
 fn sync_dir(dir: &Path) -> Result<(), LedgerError> {
-    #[cfg(unix)]
-    {
-        File::open(dir)
-            .and_then(|d| d.sync_all())
-            .map_err(LedgerError::io(dir))?;
-    }
-    #[cfg(not(unix))]
-    let _ = dir;
-    Ok(())
+    crate::durable::sync_dir(dir).map_err(LedgerError::io(dir))
 }

@@ -28,7 +28,7 @@ fn appended_records_survive_reopen_and_sequence_continues() {
     assert_eq!(report.records, 2);
     assert!(!report.created && report.set_aside.is_none() && report.problems.is_empty());
     assert_eq!(l.records(), &[a, b]);
-    assert_eq!(l.next_seq(), 3);
+    assert_eq!(l.next_seq(), Some(3));
 }
 
 #[test]
@@ -200,7 +200,7 @@ fn append_all_acknowledges_several_records_with_consecutive_sequence_numbers() {
         ])
         .unwrap();
     assert_eq!(batch.iter().map(|r| r.seq).collect::<Vec<_>>(), [2, 3]);
-    assert_eq!(l.next_seq(), 4);
+    assert_eq!(l.next_seq(), Some(4));
     drop(l);
     let (l, report) = Ledger::open(dir.path(), "ana").unwrap();
     assert_eq!(report.records, 3);

@@ -246,9 +246,19 @@ mod tests {
     }
 
     #[test]
+    fn mad_factor_is_the_reciprocal_of_the_normal_upper_quartile() {
+        // Source: the standard normal's upper quartile, Phi^-1(3/4) = 0.6744897501960817, as
+        // Python's `statistics.NormalDist().inv_cdf(0.75)` gives it (run by hand on
+        // 2026-12-02); Rousseeuw & Croux (1993) print the factor rounded as 1.4826.
+        assert!((MAD_TO_SD - 1.0 / 0.674_489_750_196_081_7).abs() < 1e-12);
+        assert!((MAD_TO_SD - 1.4826).abs() < 5e-5);
+    }
+
+    #[test]
     fn mad_scale_matches_the_textbook_value() {
         // Data 1,2,3,4,100: median 3, absolute deviations 2,1,0,1,97, MAD 1 (by hand),
-        // scale 1.4826; the outlier 100 does not stretch it.
+        // scale 1.4826 (Rousseeuw & Croux 1993; the factor's source is the test above); the
+        // outlier 100 does not stretch it.
         let s = robust_scale(&table(&[1.0, 2.0, 3.0, 4.0, 100.0]), 0);
         assert!((s - 1.482_602).abs() < 1e-5, "{s}");
     }

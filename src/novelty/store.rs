@@ -24,11 +24,12 @@
 //! | `scale` | float32 | (D,) | per-feature scales of the novelty distance |
 //! | `scale_origin` | unicode | (D,) | where each scale came from: `spec`, `MAD`, `IQR`, `standard deviation`, `unit`, `binary`, `categorical` |
 //!
-//! Scores are derived data: scoring again replaces the file (written beside it, then renamed,
-//! so a reader never sees half a file). Nothing the experts entered lives here.
+//! Scores are derived data: scoring again replaces the file through [`crate::durable`]
+//! (written under a temporary name unique to the writer, fsync'd, then renamed), so a reader
+//! never sees half a file and concurrent scorers never share a temporary file; the last
+//! rename wins. Nothing the experts entered lives here.
 
-use std::fs::File;
-use std::io::{BufWriter, Write};
+use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use crate::campaign::npz::NpzWriter;
@@ -61,20 +62,11 @@ fn store_err(path: &Path, message: impl std::fmt::Display) -> NoveltyError {
     }
 }
 
-/// Writes `bytes` to `path` atomically (a temporary sibling, flushed, then renamed).
-pub fn write_atomic(
-    path: &Path,
-    write: impl FnOnce(&mut BufWriter<File>) -> std::io::Result<()>,
-) -> Result<(), NoveltyError> {
-    let dir = path.parent().unwrap_or(Path::new("."));
-    std::fs::create_dir_all(dir).map_err(|e| store_err(dir, e))?;
-    let tmp = path.with_extension("partial");
-    let file = File::create(&tmp).map_err(|e| store_err(&tmp, e))?;
-    let mut w = BufWriter::new(file);
-    write(&mut w).map_err(|e| store_err(&tmp, e))?;
-    let file = w.into_inner().map_err(|e| store_err(&tmp, e.error()))?;
-    file.sync_all().map_err(|e| store_err(&tmp, e))?;
-    std::fs::rename(&tmp, path).map_err(|e| store_err(path, e))
+/// Creates `analysis/<round>/` when missing and checks that it and `analysis/` are real
+/// folders inside the campaign (not links out of it); returns it.
+pub fn real_round_dir(root: &Path, round: u32) -> Result<PathBuf, NoveltyError> {
+    let rel = Path::new(ANALYSIS_DIR).join(round.to_string());
+    crate::durable::real_dir(root, &rel).map_err(|e| store_err(&root.join(&rel), e))
 }
 
 /// Saves scores of `steps` to `analysis/<round>/scores.npz` and returns the path.
@@ -84,8 +76,9 @@ pub fn save_scores(
     steps: &StepTable,
     s: &RoundScores,
 ) -> Result<PathBuf, NoveltyError> {
-    let path = scores_path(root, round);
-    write_atomic(&path, |w| write_npz(steps, s, w))?;
+    let path = real_round_dir(root, round)?.join(SCORES_FILE);
+    crate::durable::write_file(&path, |w| write_npz(steps, s, w))
+        .map_err(|e| store_err(&path, e))?;
     Ok(path)
 }
 

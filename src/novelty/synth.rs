@@ -188,5 +188,6 @@ pub fn campaign(demos: StepTable, round: StepTable, k: usize, alpha: f64) -> Cam
             number: 1,
             steps: round,
         }],
+        inputs: Vec::new(),
     }
 }

@@ -58,13 +58,16 @@ mod tests {
         }
     }
 
-    /// Lightness rises monotonically (the property the scale was designed for): the
-    /// relative luminance of successive entries never falls.
+    /// Lightness rises monotonically (the property the scale was designed for): the luma of
+    /// successive entries never falls. Luma here is the weighted sum of the gamma-encoded
+    /// (sRGB) values with the luma coefficients of ITU-R Recommendation BT.709 (0.2126,
+    /// 0.7152, 0.0722); it is not relative luminance, which weights linearised values. The
+    /// tolerance 1e-3 is common practice for values stored to four decimals.
     #[test]
-    fn luminance_rises() {
-        let lum = |c: [f32; 3]| 0.2126 * c[0] + 0.7152 * c[1] + 0.0722 * c[2];
+    fn luma_rises() {
+        let luma = |c: [f32; 3]| 0.2126 * c[0] + 0.7152 * c[1] + 0.0722 * c[2];
         for w in CIVIDIS.windows(2) {
-            assert!(lum(w[1]) >= lum(w[0]) - 1e-3, "{:?} -> {:?}", w[0], w[1]);
+            assert!(luma(w[1]) >= luma(w[0]) - 1e-3, "{:?} -> {:?}", w[0], w[1]);
         }
     }
 }

@@ -5,7 +5,7 @@
 //! "action_gap": 0.31, "distance": 3.2}`. `pick` is the order of the diversity selection;
 //! `distance` is the scaled distance to the nearest
 //! correction or earlier entry when the entry was picked (`null` for a first pick with no
-//! correction). Planning again replaces the file (written beside it, then renamed).
+//! correction). Planning again replaces the file through [`crate::durable`].
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -15,7 +15,7 @@ use serde_json::json;
 use super::plan::ReviewList;
 use crate::campaign::StepTable;
 use crate::novelty::NoveltyError;
-use crate::novelty::store::{round_dir, write_atomic};
+use crate::novelty::store::{real_round_dir, round_dir};
 
 /// File name of a round's review list.
 pub const REVIEW_LIST_FILE: &str = "review-list.jsonl";
@@ -65,7 +65,12 @@ pub fn save_review_list(
     steps: &StepTable,
     list: &ReviewList,
 ) -> Result<PathBuf, NoveltyError> {
-    let path = review_list_path(root, round);
-    write_atomic(&path, |w| write_review_list(steps, list, w))?;
+    let path = real_round_dir(root, round)?.join(REVIEW_LIST_FILE);
+    crate::durable::write_file(&path, |w| write_review_list(steps, list, w)).map_err(|e| {
+        NoveltyError::Store {
+            path: path.clone(),
+            message: e.to_string(),
+        }
+    })?;
     Ok(path)
 }

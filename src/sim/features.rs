@@ -103,6 +103,8 @@ mod tests {
             v: 1.5,
         };
         let f = features(&lane, &pose, &lane.project(x, y, None));
+        // By construction (the pose was placed 0.4 m right of the centreline, turned 0.2
+        // rad); 1e-3 allows for the lane grid's linear interpolation (our own tolerance).
         assert!((f[LATERAL] + 0.4).abs() < 1e-3);
         assert!((f[HEADING] - 0.2).abs() < 1e-3);
         assert_eq!(f[SPEED], 1.5);

@@ -287,6 +287,9 @@ mod tests {
             / 3.0;
         let (_, _, h0) = lane.pose_at(0.0);
         let (_, _, h1) = lane.pose_at(s_end);
+        // Source: heading change = integral of curvature (textbook differential geometry),
+        // evaluated by composite Simpson's rule; the tolerance is common practice for a
+        // 5 cm grid.
         assert!((h1 - h0 - simpson).abs() < 1e-4, "{} vs {simpson}", h1 - h0);
     }
 
@@ -298,6 +301,7 @@ mod tests {
         for (s, off) in [(5.0, 0.3), (20.0, -0.9), (47.3, 1.1), (70.0, 0.0)] {
             let (x, y) = lane.offset_point(s, off);
             let p = lane.project(x, y, None);
+            // By construction (the point was placed at `s`); 5 mm tolerance is our own.
             assert!((p.s - s).abs() < 5e-3, "s {} vs {s}", p.s);
             assert!(
                 (p.lateral - off).abs() < 1e-3,
@@ -319,6 +323,7 @@ mod tests {
                 .map(|i| lane.curvature_at(i as f64 * 0.05).abs())
                 .fold(0.0, f64::max);
             assert!(peak <= params.max_curvature + 1e-12);
+            // Our own bound (0.3): every generated lane actually curves.
             assert!(peak > 0.3 * params.max_curvature, "seed {seed} peak {peak}");
         }
     }

@@ -167,9 +167,7 @@ fn write_file(
     if let Some(parent) = path.parent() {
         fs::create_dir_all(parent).map_err(io)?;
     }
-    let mut w = BufWriter::new(File::create(&path).map_err(io)?);
-    body(&mut w).map_err(io)?;
-    w.flush().map_err(io)
+    crate::durable::write_file(&path, body).map_err(io)
 }
 
 /// A value rounded to 4 decimals: sensor-like resolution and compact files.

@@ -2,7 +2,6 @@
 //! through a ledger, tally, export, read the merged set back and refit.
 
 use std::collections::HashMap;
-use std::fs::File;
 use std::path::{Path, PathBuf};
 
 use super::{EXTRA_DEMO_SET, Strategy, StudyConfig, StudyError, sim_config, step_err};
@@ -94,7 +93,8 @@ impl StrategyRun {
             "step_seconds": RolloutConfig::default().dt,
             "spec": demo_spec(),
         });
-        std::fs::write(dir.join("campaign.json"), file.to_string()).map_err(io)?;
+        crate::durable::write_bytes(&dir.join("campaign.json"), file.to_string().as_bytes())
+            .map_err(io)?;
         write_table(
             &dir.join("demonstrations/expert.jsonl"),
             "demonstrations",
@@ -298,9 +298,10 @@ impl StrategyRun {
 }
 
 fn write_table(path: &Path, data_dir: &str, t: &StepTable) -> Result<(), String> {
-    let f = File::create(path).map_err(|e| format!("{}: {e}", path.display()))?;
-    crate::campaign::write::write_jsonl(t, &demo_spec(), data_dir, std::io::BufWriter::new(f))
-        .map_err(io)
+    crate::durable::write_file(path, |w| {
+        crate::campaign::write::write_jsonl(t, &demo_spec(), data_dir, w)
+    })
+    .map_err(|e| format!("{}: {e}", path.display()))
 }
 
 /// `k` distinct indices of `0..n` (all of them when `k >= n`), by a partial Fisher-Yates shuffle.

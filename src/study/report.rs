@@ -51,10 +51,20 @@ fn colour(s: Strategy) -> RGBColor {
 /// Draws labels spent (log scale) against lane-departure share, one line per strategy with
 /// its 95 % interval as whiskers.
 pub fn write_plot(rows: &[ResultRow], path: &Path) -> Result<(), String> {
+    const SIZE: (u32, u32) = (900, 560);
+    let mut pixels = vec![0u8; SIZE.0 as usize * SIZE.1 as usize * 3];
+    draw_plot(rows, BitMapBackend::with_buffer(&mut pixels, SIZE))?;
+    let img = image::RgbImage::from_raw(SIZE.0, SIZE.1, pixels)
+        .ok_or_else(|| "plot buffer has the wrong size".to_string())?;
+    let png = crate::sim::frames::encode_png(&img).map_err(|e| e.to_string())?;
+    crate::durable::write_bytes(path, &png).map_err(|e| e.to_string())
+}
+
+fn draw_plot(rows: &[ResultRow], backend: BitMapBackend<'_>) -> Result<(), String> {
     plotters::style::register_font("sans-serif", FontStyle::Normal, FONT)
         .map_err(|_| "font".to_string())?;
     let e = |e: &dyn std::fmt::Display| e.to_string();
-    let root = BitMapBackend::new(path, (900, 560)).into_drawing_area();
+    let root = backend.into_drawing_area();
     root.fill(&WHITE).map_err(|x| e(&x))?;
     let max_labels = rows.iter().map(|r| r.labels).max().unwrap_or(1).max(10) as f64;
     let max_dep = rows

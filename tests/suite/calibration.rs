@@ -14,7 +14,11 @@ const ALPHA: f64 = 0.05;
 /// standard error of at most sqrt(alpha (1 - alpha) / m_fresh) even when steps within an
 /// episode are perfectly correlated (each episode's share lies in [0, 1] with mean <= alpha),
 /// and the calibration made from `m_cal` held-out episodes adds the same kind of error. Three
-/// standard errors of the sum keep a false failure below about 0.2%.
+/// standard errors of the sum keep a false failure below about 0.2% under a normal
+/// approximation of the shares: the approximation and the three-standard-error rule are
+/// common practice, not a bound derived for this test. The guarantee the margin surrounds,
+/// flag rate at most alpha for exchangeable fresh data, is the conformal one (Vovk et al.
+/// 2005; Bates et al. 2023).
 fn margin(m_fresh: usize, m_cal: usize) -> f64 {
     3.0 * (ALPHA * (1.0 - ALPHA)).sqrt() * (1.0 / m_fresh as f64 + 1.0 / m_cal as f64).sqrt()
 }

@@ -109,19 +109,21 @@ fn two_annotators_correct_then_tally_and_export_agree_with_the_library() {
     assert!(out.contains("ana=unrecoverable ben=skip -> none"), "{out}");
 
     let merged = d.join("exports/merged.csv");
-    let out = ok(&cs(&[
+    let o = cs(&[
         "export",
         d.to_str().unwrap(),
         "--out",
         merged.to_str().unwrap(),
-    ]));
+    ]);
+    let out = ok(&o);
     assert!(
         out.contains("11 rows (10 demonstration, 1 correction)"),
         "{out}"
     );
+    let err = String::from_utf8_lossy(&o.stderr);
     assert!(
-        out.contains("caution: Robots and vehicles can hurt people. Corrected data does not make a policy safe"),
-        "{out}"
+        err.contains("caution: Robots and vehicles can hurt people. Corrected data does not make a policy safe"),
+        "{err}"
     );
     let text = std::fs::read_to_string(&merged).unwrap();
     let last = text.lines().last().unwrap();

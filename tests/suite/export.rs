@@ -73,7 +73,7 @@ fn merged_set_holds_demonstrations_and_consensus_corrections_with_provenance() {
     assert!(manifest_path(&out).ends_with("exports/merged.jsonl.manifest.json"));
 
     let set = read_merged(&out, &common::spec()).unwrap();
-    // Row 40 + 4 is round 1 lane-00 t 4: steer median of -0.2 + 0.4 and that + 0.02; speed
+    // Worked by hand: row 40 + 4 is round 1 lane-00 t 4: steer median of -0.2 + 0.4 and that + 0.02; speed
     // `slow` against `stop` ties and goes to `stop` (listed first); agreement 1 - 0.5.
     let r = 44;
     assert_eq!(set.source[r], RowSource::Correction);

@@ -6,7 +6,16 @@ use std::path::Path;
 
 use countersteer::fuzzing::{self, StepFormat};
 
-const TARGETS: [&str; 7] = ["spec", "jsonl", "csv", "npy", "npz", "ledger", "frame"];
+const TARGETS: [&str; 8] = [
+    "spec",
+    "jsonl",
+    "csv",
+    "npy",
+    "npz",
+    "ledger",
+    "ledger_append",
+    "frame",
+];
 
 fn run(target: &str, data: &[u8]) {
     match target {
@@ -16,6 +25,7 @@ fn run(target: &str, data: &[u8]) {
         "npz" => drop(fuzzing::steps(StepFormat::Npz, data)),
         "npy" => fuzzing::npy(data),
         "ledger" => fuzzing::ledger(data),
+        "ledger_append" => fuzzing::ledger_append(data),
         "frame" => fuzzing::frame(data),
         other => panic!("no fuzz target `{other}`"),
     }

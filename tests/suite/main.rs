@@ -29,6 +29,7 @@ mod hostile;
 mod krippendorff_fixture;
 mod layering;
 mod ledger_crash;
+mod ledger_guard;
 mod loaders;
 mod long_sitting;
 mod novelty_knn;
@@ -50,3 +51,4 @@ mod ui_sitting;
 mod window_kit;
 #[cfg(feature = "gui")]
 mod workbench;
+mod writes;

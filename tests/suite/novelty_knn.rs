@@ -39,6 +39,8 @@ fn check_against_brute_force(dim: usize, build: Build) -> String {
         let want = brute_knn(&demos.states, dim, &inv, &q, 5);
         index.knn(&q, 5, f32::INFINITY, &mut hits);
         assert_eq!(hits.len(), 5, "dim {dim}");
+        // Oracle: brute force over every point; the relative tolerance 1e-4 covers f32
+        // summation order (common practice).
         for (h, w) in hits.iter().zip(&want) {
             assert!(
                 (h.1 - w.1).abs() <= 1e-4 * w.1.max(1e-3),
@@ -86,6 +88,7 @@ fn seeded_chains_give_the_same_neighbours_as_plain_queries() {
     let p = Progress::new();
     let seeded = knn_rows(&index, &inv, &steps, &all, 5, true, "", &p).unwrap();
     let plain = knn_rows(&index, &inv, &steps, &all, 5, false, "", &p).unwrap();
+    // Oracle: the unseeded search; relative tolerance for f32 rounding (common practice).
     for (a, b) in seeded.iter().zip(&plain) {
         assert!((a.1 - b.1).abs() <= 1e-5 * b.1.max(1e-3), "{a:?} vs {b:?}");
     }

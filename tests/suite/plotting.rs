@@ -106,6 +106,8 @@ fn principal_projection_matches_numpy() {
     let ProjectionKind::Principal { explained: got } = p.kind else {
         panic!("expected principal components");
     };
+    // Source: numpy (the fixture); tolerances 1e-5 / 1e-3 cover f32 projection (common
+    // practice).
     assert!((got[0] - explained[0]).abs() < 1e-5 && (got[1] - explained[1]).abs() < 1e-5);
     let all = p.project_all(&table, &Progress::new());
     for (g, w) in all.iter().zip(&want) {

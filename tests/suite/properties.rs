@@ -18,7 +18,7 @@ use proptest::test_runner::Config;
 
 use countersteer::campaign::Campaign;
 use countersteer::consensus::tally;
-use countersteer::export::read::read_merged;
+use countersteer::export::read::read_rows;
 use countersteer::export::rows::{MergedSet, RowSource};
 use countersteer::export::write::{write_csv, write_jsonl, write_npz};
 use countersteer::ledger::{
@@ -328,7 +328,7 @@ fn write_and_read(m: &MergedSet, dir: &Path, ext: &str) -> MergedSet {
         _ => write_npz(m, std::io::BufWriter::new(f), &p),
     }
     .unwrap();
-    read_merged(&path, &spec).unwrap()
+    read_rows(&path, &spec).unwrap()
 }
 
 /// Bit patterns, so that -0.0 and 0.0 differ and equal values compare equal.

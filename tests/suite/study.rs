@@ -14,10 +14,12 @@ fn last(rows: &[ResultRow], s: Strategy) -> &ResultRow {
 }
 
 /// Half-width of the 95 % interval of a difference of two departure shares: the root sum of
-/// squares of the two bootstrap half-widths (normal approximation for a difference of two
-/// independent means). Both learners are evaluated on the same episodes, whose outcomes are
-/// positively correlated, so the true interval of the difference is no wider: the margin is
-/// conservative. Floored at one episode's share.
+/// squares of the two bootstrap half-widths. This rests on a normal approximation for a
+/// difference of two independent means, which is common practice (any statistics textbook's
+/// two-sample interval), not a published bound for this study. Both learners are evaluated on
+/// the same episodes, whose outcomes are positively correlated, so the true interval of the
+/// difference is no wider: the margin is conservative. Floored at one episode's share (our
+/// choice).
 fn margin(a: &ResultRow, b: &ResultRow, episodes: usize) -> f64 {
     let hw = |r: &ResultRow| (r.departure.high - r.departure.low) / 2.0;
     hw(a).hypot(hw(b)).max(1.0 / episodes as f64)
