@@ -126,7 +126,10 @@ fn print_phases(model: &NoveltyModel, steps: &crate::campaign::StepTable, s: &Ro
         own[i] += usize::from(s.flagged[row]);
         pooled[i] += usize::from(model.conformal().flagged(s.novelty[row]));
     }
-    println!("  calibration phases (steps from the episode's start; Mondrian conformal):");
+    println!(
+        "  calibration phases (steps from the episode's start; Mondrian conformal); the pooled calibration's threshold is {:.4}:",
+        model.conformal().threshold()
+    );
     let starts = phased.starts();
     for i in 0..p {
         let end = starts

@@ -34,17 +34,15 @@ fn write_npz(path: &Path) {
         0.0f32, 0., 0., 0.5, 0., 0., 0., 1., 0., 1., 0., 0., 0.5, 1., 0.,
     ];
     let actions = [0.0f32, 1., 0., 1., 0.1, 1., 0., 1., 0.1, 1.];
-    z.numbers("states", &[5, 3], states.into_iter()).unwrap();
-    z.numbers("actions", &[5, 2], actions.into_iter()).unwrap();
+    z.numbers("states", &[5, 3], states).unwrap();
+    z.numbers("actions", &[5, 2], actions).unwrap();
     z.strings("episode", ["a", "a", "b", "a", "b"].into_iter())
         .unwrap();
-    z.numbers("t", &[5], [0i64, 1, 0, 2, 1].into_iter())
-        .unwrap();
+    z.numbers("t", &[5], [0i64, 1, 0, 2, 1]).unwrap();
     let nan = f64::NAN;
-    z.numbers("reward", &[5], [1.0, 0.5, 0.25, nan, 0.75].into_iter())
+    z.numbers("reward", &[5], [1.0, 0.5, 0.25, nan, 0.75])
         .unwrap();
-    z.numbers("cost", &[5], [nan, nan, 0.2, nan, 0.2].into_iter())
-        .unwrap();
+    z.numbers("cost", &[5], [nan, nan, 0.2, nan, 0.2]).unwrap();
     z.strings("outcome", ["", "", "", "landed", "tipped"].into_iter())
         .unwrap();
     z.finish().unwrap();
