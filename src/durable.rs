@@ -306,6 +306,11 @@ fn temp_owner(file_name: &str) -> Option<TempOwner> {
     }
 }
 
+/// True for a temporary name of this writer (`.<name>.partial-<pid>...`).
+pub fn is_temp_name(file_name: &str) -> bool {
+    temp_owner(file_name).is_some()
+}
+
 /// Whether a process with this pid runs on this machine; `None` when it cannot be told.
 fn process_alive(pid: u32) -> Option<bool> {
     if pid == std::process::id() {

@@ -12,11 +12,12 @@ use serde::Serialize;
 use crate::campaign::{Campaign, StepTable};
 use crate::consensus::{RoundTally, tally};
 use crate::ledger::{LedgerError, read_ledgers};
+use crate::novelty::RoundScores;
 use crate::novelty::scale::quantile_sorted;
-use crate::novelty::store::{load_scores, save_scores};
-use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
 use crate::progress::Progress;
 use crate::review::{ExcursionSettings, excursions};
+use crate::workflow::WorkflowError;
+use crate::workflow::analysis::{AnalysisOptions, analyse};
 
 /// Novelty quantiles reported per round.
 pub const NOVELTY_QUANTILES: [f64; 3] = [0.5, 0.9, 0.99];
@@ -118,38 +119,12 @@ pub fn failed_episodes(c: &Campaign, steps: &StepTable) -> Option<usize> {
 /// Why the trend of a campaign could not be made.
 #[derive(Debug, thiserror::Error)]
 pub enum TrendError {
-    /// Scoring a round failed.
+    /// Obtaining a round's scores failed.
     #[error(transparent)]
-    Novelty(#[from] NoveltyError),
+    Workflow(#[from] WorkflowError),
     /// The ledgers could not be read.
     #[error(transparent)]
     Ledger(#[from] LedgerError),
-}
-
-/// Saved scores of a round when they match the campaign's settings, else scores made now and
-/// saved (as `countersteer score` does). The model is built at most once.
-fn scores_of(
-    c: &Campaign,
-    steps: &StepTable,
-    round: u32,
-    rescore: bool,
-    model: &mut Option<NoveltyModel>,
-    progress: &Progress,
-) -> Result<RoundScores, NoveltyError> {
-    if !rescore
-        && let Ok(s) = load_scores(&c.root, round, steps)
-        && s.k == c.file.novelty.k.min(c.demonstrations.len())
-        && s.alpha == c.file.novelty.alpha
-    {
-        return Ok(s);
-    }
-    let m = match model {
-        Some(m) => m,
-        None => model.insert(build_model(c, progress)?),
-    };
-    let s = score_round(m, c, steps, progress)?;
-    save_scores(&c.root, round, steps, &s)?;
-    Ok(s)
 }
 
 /// The trend of every round of a campaign, in round order; rounds without saved scores (or
@@ -163,7 +138,15 @@ pub fn campaign_trend(
     let mut model = None;
     let mut out = Vec::new();
     for r in &c.rounds {
-        let s = scores_of(c, &r.steps, r.number, rescore, &mut model, progress)?;
+        // The one analysis path: saved scores when they still fit, else scored and saved.
+        let options = AnalysisOptions {
+            model: model.clone(),
+            rescore,
+            save: true,
+        };
+        let a = analyse(c, r.number, options, progress)?;
+        model = a.model.or(model);
+        let s = a.scores;
         let counts = t.rounds.iter().find(|x| x.round == r.number);
         let failures = failed_episodes(c, &r.steps);
         out.push(round_trend(r.number, &r.steps, &s, counts, failures));

@@ -129,8 +129,8 @@ impl Workbench {
         };
         self.desk.stamps = crate::ledger::ledger_stamps(&c.root);
         self.desk.polled = Some(std::time::Instant::now());
-        self.tally = match crate::ledger::read_ledgers(&c.root) {
-            Ok(ledgers) => Some(crate::consensus::tally(&c, &ledgers)),
+        self.tally = match crate::workflow::tally_campaign(&c) {
+            Ok(t) => Some(t),
             Err(e) => {
                 self.status.error(format!("ledgers: {e}"));
                 None
@@ -287,9 +287,13 @@ impl Workbench {
     }
 
     fn apply_desk(&mut self, c: Command) {
-        use crate::review::Status;
+        use crate::workflow::Status;
         match c {
             Command::SaveAction => self.give_verdict(Status::Corrected),
+            Command::SaveSuggestion => {
+                self.take(false);
+                self.give_verdict(Status::Corrected);
+            }
             Command::Skip => self.give_verdict(Status::Skipped),
             Command::Unrecoverable => self.give_verdict(Status::Unrecoverable),
             Command::Undo => self.undo(),

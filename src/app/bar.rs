@@ -26,7 +26,10 @@ pub fn bar_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             {
                 cmds.push(Command::AskAnnotator);
             }
-            if ui.button("Export... (Ctrl E)").clicked() {
+            if ui
+                .button(super::keys::caption("Export...", &Command::ToggleExport))
+                .clicked()
+            {
                 cmds.push(Command::ToggleExport);
             }
             if ui
@@ -158,7 +161,9 @@ fn work_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 /// The tally of agreement: annotators, steps judged by two or more, and Krippendorff's alpha
 /// per action channel and for the verdict kind (from [`crate::consensus`]).
 fn agreement_ui(wb: &Workbench, ui: &mut egui::Ui) {
-    let Some(t) = &wb.tally else { return };
+    let Some(t) = wb.tally.as_ref().map(|t| &t.tally) else {
+        return;
+    };
     let annotators = t.ledgers.iter().filter(|l| l.records > 0).count();
     if annotators == 0 {
         return;

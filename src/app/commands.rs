@@ -39,6 +39,9 @@ pub enum Command {
     /// Save the desk's action as a correction of the step on the desk, then go to the next
     /// open entry.
     SaveAction,
+    /// Put the suggested action in the desk and save it as a correction, then go to the next
+    /// open entry.
+    SaveSuggestion,
     /// Record `skip` for the step on the desk, then go to the next open entry.
     Skip,
     /// Record `unrecoverable` for the step on the desk, then go to the next open entry.

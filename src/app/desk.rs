@@ -10,6 +10,7 @@ use crate::review::brief::{ChannelLine, StepBrief, bounds};
 
 use super::commands::{Command, FocusTarget};
 use super::desk_state::exact_text;
+use super::keys::caption;
 use super::workbench::Workbench;
 
 use super::theme::{ACCENT as ACTIVE, EXPERT, LEARNER, STALE};
@@ -349,7 +350,7 @@ fn verdict_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
         let r = ui
             .add(
                 egui::TextEdit::singleline(&mut wb.desk.note)
-                    .hint_text("optional (M)")
+                    .hint_text(caption("optional", &Command::Focus(FocusTarget::Note)))
                     .desired_width(f32::INFINITY),
             )
             .labelled_by(l.id);
@@ -360,25 +361,26 @@ fn verdict_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     });
     ui.horizontal_wrapped(|ui| {
         let buttons = [
-            ("Save correction (Enter)", Command::SaveAction),
-            ("Skip (S)", Command::Skip),
-            ("Unrecoverable (U)", Command::Unrecoverable),
+            ("Save correction", Command::SaveAction),
+            ("Skip", Command::Skip),
+            ("Unrecoverable", Command::Unrecoverable),
         ];
         for (label, c) in buttons {
-            if ui.button(label).clicked() {
+            if ui.button(caption(label, &c)).clicked() {
                 cmds.push(c);
             }
         }
     });
     ui.horizontal_wrapped(|ui| {
         let buttons = [
-            ("Undo (Ctrl Z)", Command::Undo),
-            ("Next open (N)", Command::NextOpen),
-            ("Suggested (G)", Command::TakeSuggestion),
-            ("Learner's (K)", Command::TakeLearner),
+            ("Undo", Command::Undo),
+            ("Next open", Command::NextOpen),
+            ("Suggested", Command::TakeSuggestion),
+            ("Learner's", Command::TakeLearner),
+            ("Save suggested", Command::SaveSuggestion),
         ];
         for (label, c) in buttons {
-            if ui.button(label).clicked() {
+            if ui.button(caption(label, &c)).clicked() {
                 cmds.push(c);
             }
         }
@@ -387,7 +389,7 @@ fn verdict_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
 
 fn others_ui(wb: &Workbench, b: &StepBrief, ui: &mut egui::Ui) {
     ui.label("Verdicts on this step");
-    let Some(t) = &wb.tally else {
+    let Some(t) = wb.tally.as_ref().map(|t| &t.tally) else {
         ui.weak("ledgers not read");
         return;
     };

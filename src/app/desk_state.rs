@@ -7,10 +7,10 @@ use std::path::PathBuf;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-use crate::consensus::Tally;
-use crate::ledger::{FileStamp, Ledger, Verdict, check_annotator, ledger_stamps};
+use crate::ledger::{FileStamp, Ledger, check_annotator, ledger_stamps};
 use crate::review::brief::{StepBrief, clamp, nudge};
-use crate::review::{PlanSettings, Sitting, judgements};
+use crate::workflow::analysis::covers;
+use crate::workflow::{Sitting, Status, Tallied, judged_rows, judgements, verdict_for};
 
 use super::commands::FocusTarget;
 use super::workbench::Workbench;
@@ -119,28 +119,27 @@ impl Workbench {
         self.open_ledger();
     }
 
-    /// Builds the review sitting of the selected round from its scores.
+    /// Builds the review sitting of the selected round from its scores: over the list
+    /// `countersteer plan` saved when it is fresh, else planned with the window's budget.
     pub(super) fn start_sitting(&mut self) {
+        self.begin_sitting(true);
+    }
+
+    fn begin_sitting(&mut self, prefer_saved: bool) {
         let (Some(round), Some(c)) = (self.ui.round, self.campaign.clone()) else {
             return;
         };
         let (Some(sig), Some(r)) = (self.signals.current.clone(), c.round(round)) else {
             return;
         };
-        let s = &sig.scores;
-        let n = r.steps.len();
-        let whole = [s.novelty.len(), s.p_value.len(), s.action_gap.len()] == [n; 3]
-            && s.scale.len() == r.steps.state_dim;
-        if sig.round != round || !whole {
+        if sig.round != round || !covers(&sig.scores, &r.steps) {
             return;
         }
-        let settings = PlanSettings {
-            budget: self.ui.budget.max(1),
-            failures: c.spec().failure_indices(),
-            ..Default::default()
-        };
-        self.desk.sitting = Some(Sitting::new(&r.steps, &sig.scores, round, &settings));
-        self.desk.budget_text = self.ui.budget.max(1).to_string();
+        let (budget, source) = (self.ui.budget.max(1), &sig.source);
+        let saved = prefer_saved.then_some(source);
+        let sitting = Sitting::open(&c.root, &r.steps, &sig.scores, round, saved, budget);
+        self.desk.budget_text = sitting.budget.to_string();
+        self.desk.sitting = Some(sitting);
         self.refresh_sitting();
         if std::mem::take(&mut self.desk.start_reviewing) {
             // The list's first open entry, even when it is the step already selected (a
@@ -170,12 +169,8 @@ impl Workbench {
             .map(|l| judgements(&r.steps, r.number, l.records()))
             .unwrap_or_default();
         let me = self.ui.annotator.as_str();
-        let others: Vec<usize> = self.tally.as_ref().map_or(Vec::new(), |t| {
-            t.steps
-                .iter()
-                .filter(|s| s.round == r.number && s.votes.iter().any(|v| v.annotator != me))
-                .map(|s| s.row)
-                .collect()
+        let others = self.tally.as_ref().map_or(Vec::new(), |t| {
+            judged_rows(&r.steps, r.number, &t.ledgers, Some(me))
         });
         sitting.update(&r.steps, &sig.scores, &own, &others);
     }
@@ -214,7 +209,7 @@ impl Workbench {
     }
 
     /// Appends a verdict on the step on the desk to the ledger, re-plans and moves on.
-    pub(super) fn give_verdict(&mut self, kind: crate::review::Status) {
+    pub(super) fn give_verdict(&mut self, kind: Status) {
         let started = Instant::now();
         let Some(c) = self.campaign.clone() else {
             return;
@@ -223,11 +218,7 @@ impl Workbench {
             self.status.info("no step on the desk".into());
             return;
         };
-        let verdict = match kind {
-            crate::review::Status::Skipped => Verdict::Skip,
-            crate::review::Status::Unrecoverable => Verdict::Unrecoverable,
-            _ => Verdict::from_action(c.spec(), &self.desk.draft),
-        };
+        let verdict = verdict_for(kind, c.spec(), &self.desk.draft);
         let Some(ledger) = self.desk.ledger.as_mut() else {
             self.no_ledger();
             return;
@@ -270,12 +261,7 @@ impl Workbench {
             self.no_ledger();
             return;
         };
-        let last = ledger
-            .records()
-            .iter()
-            .rev()
-            .find(|r| r.correction().is_some() && !ledger.is_retracted(r.seq))
-            .and_then(|r| Some((r.seq, r.correction()?.clone())));
+        let last = ledger.last_standing().map(|(seq, c)| (seq, c.clone()));
         let Some((seq, c)) = last else {
             self.status.info("nothing to undo".into());
             return;
@@ -429,7 +415,7 @@ impl Workbench {
         match self.desk.budget_text.trim().parse::<usize>() {
             Ok(b) if b >= 1 => {
                 self.ui.budget = b;
-                self.start_sitting();
+                self.begin_sitting(false);
                 self.status
                     .info(format!("review list planned again for {b} entries"));
             }
@@ -457,14 +443,12 @@ impl Workbench {
         self.work
             .tally
             .start("tally", "reading the ledgers", move |_| {
-                crate::ledger::read_ledgers(&c.root)
-                    .map(|l| crate::consensus::tally(&c, &l))
-                    .map_err(|e| e.to_string())
+                crate::workflow::tally_campaign(&c).map_err(|e| e.to_string())
             });
     }
 
     /// Takes a new tally (from the poll) and re-plans.
-    pub(super) fn on_tally(&mut self, t: Result<Tally, String>) {
+    pub(super) fn on_tally(&mut self, t: Result<Tallied, String>) {
         match t {
             Ok(t) => {
                 self.tally = Some(t);

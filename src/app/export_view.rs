@@ -85,9 +85,8 @@ impl Workbench {
         let opts = self.export.options();
         self.export.done = None;
         self.work.export.start("export", "exporting", move |p| {
-            let ledgers = crate::ledger::read_ledgers(&c.root).map_err(|e| e.to_string())?;
-            let t = crate::consensus::tally(&c, &ledgers);
-            crate::export::export(&c, &t, &opts, &out, p)
+            let t = crate::workflow::tally_campaign(&c).map_err(|e| e.to_string())?;
+            crate::export::export(&c, &t.tally, &opts, &out, p)
                 .map(|m| (out, m))
                 .map_err(|e| e.to_string())
         });

@@ -33,10 +33,17 @@ fn budget_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             wb.desk.focus = None;
         }
         let enter = r.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
-        if ui.button("Re-plan (P)").clicked() || enter {
+        if ui
+            .button(super::keys::caption("Re-plan", &Command::Replan))
+            .clicked()
+            || enter
+        {
             cmds.push(Command::Replan);
         }
-        if ui.button("Next open (N)").clicked() {
+        if ui
+            .button(super::keys::caption("Next open", &Command::NextOpen))
+            .clicked()
+        {
             cmds.push(Command::NextOpen);
         }
     });

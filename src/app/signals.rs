@@ -5,22 +5,10 @@
 use std::sync::Arc;
 
 use crate::campaign::Campaign;
-use crate::novelty::{self, NoveltyError, NoveltyModel, RoundScores};
+use crate::novelty::{NoveltyModel, RoundScores};
 use crate::progress::Progress;
-use crate::review::{self, Excursion, ExcursionSettings};
-
-/// One excursion: a maximal run of flagged steps, as table rows of the round.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct ExcursionRows {
-    /// Episode index in the round's table.
-    pub episode: usize,
-    /// First flagged row.
-    pub onset: usize,
-    /// Row of the highest novelty.
-    pub peak: usize,
-    /// Last flagged row (inclusive).
-    pub end: usize,
-}
+use crate::review::Excursion;
+use crate::workflow::{AnalysisOptions, ScoreSource, WorkflowError, analyse};
 
 /// Novelty signals for every row of one round's table: the library's [`RoundScores`] (read
 /// through `Deref`, so `signals.novelty` is the scores' vector) and the round's excursions.
@@ -31,7 +19,9 @@ pub struct RoundSignals {
     /// The library's per-step scores of the round.
     pub scores: RoundScores,
     /// Excursions of the round.
-    pub excursions: Vec<ExcursionRows>,
+    pub excursions: Vec<Excursion>,
+    /// Where the scores came from (decides whether the saved review list fits them).
+    pub source: ScoreSource,
 }
 
 impl std::ops::Deref for RoundSignals {
@@ -66,7 +56,7 @@ impl RoundSignals {
     }
 
     /// Excursions of one episode, in time order.
-    pub fn excursions_of(&self, episode: usize) -> impl Iterator<Item = &ExcursionRows> {
+    pub fn excursions_of(&self, episode: usize) -> impl Iterator<Item = &Excursion> {
         self.excursions.iter().filter(move |e| e.episode == episode)
     }
 }
@@ -100,59 +90,46 @@ impl RoundSignals {
     pub fn from_scores(round: u32, s: RoundScores, excursions: &[Excursion]) -> RoundSignals {
         RoundSignals {
             round,
+            source: ScoreSource::Scored(None),
             scores: s,
-            excursions: excursions
-                .iter()
-                .map(|e| ExcursionRows {
-                    episode: e.episode,
-                    onset: e.onset,
-                    peak: e.peak,
-                    end: e.end,
-                })
-                .collect(),
+            excursions: excursions.to_vec(),
         }
     }
 }
 
-/// Scores one round of a campaign (runs on a background thread): reads the round's saved
-/// scores (`countersteer score`) when they match its steps, else builds the novelty model
-/// (unless one is given) and scores every step; then finds the excursions. `Ok(None)` when
-/// cancelled or the round does not exist.
+/// Scores one round of a campaign (runs on a background thread) through the library's
+/// [`analyse`]: the round's saved scores when the saved scores' one reuse rule allows, else
+/// scored now with the given model or one built now; then finds the excursions. `Ok(None)`
+/// when cancelled or the round does not exist.
 pub fn compute(
     campaign: &Campaign,
     model: Option<Arc<NoveltyModel>>,
     round: u32,
     progress: &Progress,
 ) -> Result<Option<Scored>, String> {
-    let Some(r) = campaign.round(round) else {
-        return Ok(None);
-    };
-    let saved = novelty::store::load_scores(&campaign.root, round, &r.steps).ok();
-    let (scores, model, source) = match saved {
-        Some(s) => {
-            let path = novelty::store::scores_path(&campaign.root, round);
-            (s, model, format!("saved scores {}", path.display()))
-        }
-        None => {
-            let model = match model {
-                Some(m) => m,
-                None => match novelty::build_model(campaign, progress) {
-                    Ok(m) => Arc::new(m),
-                    Err(NoveltyError::Cancelled) => return Ok(None),
-                    Err(e) => return Err(e.to_string()),
-                },
-            };
-            match novelty::score_round(&model, campaign, &r.steps, progress) {
-                Ok(s) => (s, Some(model), "scored now".to_string()),
-                Err(NoveltyError::Cancelled) => return Ok(None),
-                Err(e) => return Err(e.to_string()),
-            }
-        }
-    };
-    let found = review::excursions(&r.steps, &scores, &ExcursionSettings::default());
-    let signals = RoundSignals::from_scores(round, scores, &found);
-    Ok(Some(Scored {
+    let options = AnalysisOptions {
         model,
+        ..Default::default()
+    };
+    let a = match analyse(campaign, round, options, progress) {
+        Ok(a) => a,
+        Err(e) if e.is_cancelled() => return Ok(None),
+        Err(WorkflowError::NoRound(_)) => return Ok(None),
+        Err(e) => return Err(e.to_string()),
+    };
+    let mut source = match (&a.source, &a.stale) {
+        (ScoreSource::Scored(_), Some(why)) => format!("scored now ({why})"),
+        (s, _) => s.describe(),
+    };
+    if let (ScoreSource::Scored(_), Some(m)) = (&a.source, &a.model) {
+        for w in m.warnings() {
+            source.push_str(&format!("; warning: {w}"));
+        }
+    }
+    let mut signals = RoundSignals::from_scores(round, a.scores, &a.excursions);
+    signals.source = a.source;
+    Ok(Some(Scored {
+        model: a.model,
         signals,
         source,
     }))

@@ -9,8 +9,6 @@ use serde::{Deserialize, Serialize};
 
 /// Key under which [`UiState`] is stored.
 pub const STORAGE_KEY: &str = "countersteer.workbench";
-/// Review list budget until the user sets one.
-pub const DEFAULT_BUDGET: usize = 20;
 /// How many recent campaigns are remembered.
 pub const RECENT_CAP: usize = 8;
 
@@ -119,7 +117,7 @@ impl Default for UiState {
             sort: ShelfSort::default(),
             filter: String::new(),
             layout: Layout::default(),
-            budget: DEFAULT_BUDGET,
+            budget: crate::review::DEFAULT_BUDGET,
             review_tab: false,
             caution_read: BTreeMap::new(),
         }

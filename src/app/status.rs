@@ -54,7 +54,10 @@ pub fn status_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>)
         .resizable(false)
         .show(ui, |ui| {
             ui.horizontal(|ui| {
-                if ui.button("Keys (F1)").clicked() {
+                if ui
+                    .button(super::keys::caption("Keys", &Command::ToggleHelp))
+                    .clicked()
+                {
                     cmds.push(Command::ToggleHelp);
                 }
                 let text = egui::RichText::new(&s.message);

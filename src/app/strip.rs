@@ -61,15 +61,9 @@ impl Workbench {
         let spec = self.campaign()?.spec();
         let d = spec.state_dim();
         let shares = sig.contributions.get(row * d..(row + 1) * d)?;
-        let mut order: Vec<usize> = (0..d).collect();
-        order.sort_by(|&a, &b| shares[b].total_cmp(&shares[a]));
-        let parts: Vec<String> = order
-            .iter()
-            .take(2)
-            .filter(|&&i| shares[i] >= 0.1)
-            .map(|&i| format!("{} {:.0}%", spec.features[i].name, shares[i] * 100.0))
-            .collect();
-        (!parts.is_empty()).then(|| parts.join(", "))
+        let names: Vec<&str> = spec.features.iter().map(|f| f.name.as_str()).collect();
+        let top = crate::novelty::explain::top_features(shares, 2, 0.1);
+        (!top.is_empty()).then(|| crate::novelty::explain::describe(&names, &top))
     }
 
     fn channel_readout(&self, c: usize) -> String {
@@ -126,7 +120,7 @@ pub fn strip_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) 
 
 fn controls_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     ui.horizontal(|ui| {
-        let play = if wb.playing() { "Pause" } else { "Play" };
+        let play = if wb.playing() { "Hold" } else { "Play" };
         if ui.button(play).clicked() {
             cmds.push(Command::TogglePlay);
         }
@@ -162,7 +156,16 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     let h = ui.available_height();
     let signals = wb.ui.round.and_then(|r| wb.signals.for_round(r));
     let novelty_h = (h * if signals.is_some() { 0.42 } else { 0.22 }).max(50.0);
-    let channel_h = ((h - novelty_h - 22.0) / channels.max(1) as f32 - 20.0).max(36.0);
+    // What is not a plot, from the style: the legend row, and a caption line above each
+    // channel plot, each with the spacing after it (one pixel spare against rounding: a
+    // panel grows to whatever its contents need, frame after frame).
+    let gap = ui.spacing().item_spacing.y;
+    let line = ui.text_style_height(&egui::TextStyle::Small);
+    // A horizontal row is at least one widget tall.
+    let legend = line.max(ui.spacing().interact_size.y) + gap;
+    let per_channel = line + 2.0 * gap;
+    let rest = h - novelty_h - legend - gap - 1.0;
+    let channel_h = (rest / channels.max(1) as f32 - per_channel).max(36.0);
     let s = &wb.series;
     legend_ui(ui);
     // Bounds by `include_y`, never by setting them: set bounds would switch auto-bounds off for

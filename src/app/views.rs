@@ -6,6 +6,7 @@ use std::sync::Arc;
 use crate::campaign::{Campaign, StepTable};
 use crate::plotting::{Density, Projection};
 use crate::progress::Progress;
+use crate::review::episode_stats;
 
 use super::signals::RoundSignals;
 
@@ -86,34 +87,22 @@ pub struct EpisodeSummary {
 
 /// Summaries of every episode of a round.
 pub fn summarize(table: &StepTable, signals: Option<&RoundSignals>) -> Arc<Vec<EpisodeSummary>> {
-    let out = table
-        .episodes
-        .iter()
-        .enumerate()
-        .map(|(index, e)| {
+    let scores = signals.map(|s| &s.scores);
+    let out = episode_stats(table, scores)
+        .into_iter()
+        .map(|st| {
+            let e = &table.episodes[st.episode];
             let rows = e.rows();
-            let interventions = if table.interventions.is_empty() {
-                0
-            } else {
-                table.interventions[rows.clone()]
-                    .iter()
-                    .filter(|&&b| b)
-                    .count()
-            };
-            let scored = signals.filter(|s| s.novelty.len() >= rows.end);
             EpisodeSummary {
-                index,
+                index: st.episode,
                 name: e.name.clone(),
-                steps: e.len,
-                interventions,
-                flagged_share: scored.map(|s| {
-                    s.flagged[rows.clone()].iter().filter(|&&f| f).count() as f32
-                        / e.len.max(1) as f32
-                }),
-                peak_novelty: scored
-                    .map(|s| s.novelty[rows.clone()].iter().copied().fold(0.0, f32::max)),
-                sparkline: scored
-                    .map(|s| sparkline(&s.novelty[rows.clone()]))
+                steps: st.steps,
+                interventions: st.interventions,
+                flagged_share: st.flagged_share(),
+                peak_novelty: st.peak_novelty,
+                sparkline: scores
+                    .filter(|_| st.peak_novelty.is_some())
+                    .map(|s| sparkline(&s.novelty[rows]))
                     .unwrap_or_default(),
             }
         })

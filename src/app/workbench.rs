@@ -56,7 +56,7 @@ pub struct Work {
     /// Scoring the selected round.
     pub score: Slot<Result<Option<super::signals::Scored>, String>>,
     /// Reading the ledgers again after one changed on disk.
-    pub tally: Slot<Result<crate::consensus::Tally, String>>,
+    pub tally: Slot<Result<crate::workflow::Tallied, String>>,
     /// Exporting the merged set.
     pub export: Slot<Result<(PathBuf, crate::export::Manifest), String>>,
 }
@@ -87,7 +87,7 @@ pub struct Workbench {
     pub(super) strip_width: f32,
     /// Every annotator's corrections, aggregated when the campaign was opened and again
     /// whenever a ledger changes on disk.
-    pub(super) tally: Option<crate::consensus::Tally>,
+    pub(super) tally: Option<crate::workflow::Tallied>,
     /// The correction desk and the review sitting.
     pub desk: super::desk_state::Desk,
     /// The export window.
@@ -103,7 +103,9 @@ impl Workbench {
         round: u32,
         rows: std::ops::Range<usize>,
     ) -> &[crate::consensus::StepConsensus] {
-        let Some(t) = &self.tally else { return &[] };
+        let Some(t) = self.tally.as_ref().map(|t| &t.tally) else {
+            return &[];
+        };
         let lo = t
             .steps
             .partition_point(|s| (s.round, s.row) < (round, rows.start));

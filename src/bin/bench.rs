@@ -2,7 +2,7 @@
 //! figure beside a baseline measured in the same run. Run in release:
 //!
 //! ```text
-//! cargo run --release --bin bench -- [--runs 3] [--only w1,w2,w3,plan] [--npy DIR]
+//! cargo run --release --bin bench -- [--runs 3] [--only w1,w2,w3,wide,load,plan] [--npy DIR]
 //! ```
 //!
 //! * W1: 1M demonstration states, 100k rollout steps, D = 16: build + calibrate + score.
@@ -11,6 +11,12 @@
 //!   data is written as .npy and `python3 bench/scipy_knn.py DIR` times scipy's cKDTree on it.
 //! * W3: D = 64, 200k demonstrations, 100k steps: the principal-subspace path, with its
 //!   accuracy against brute force.
+//! * wide: 80 demonstration states and 80 steps of D = 1,000 and D = 10,000 features (the
+//!   leading axes by randomized subspace iteration); baseline: brute-force k-NN of the same
+//!   steps. `--only widejacobi` also times the former full Jacobi eigen-solver at D = 500 and
+//!   1,000 (minutes at 1,000).
+//! * load: peak memory of loading 2M demonstration steps (D = 16) from .npz beside the same
+//!   steps from JSON Lines (the baseline; target: within 1.5x).
 //! * plan: a 500-step review list from 1M scored steps; baseline: k-center over every candidate.
 //! * w1parts (only when asked for by name): W1 stage by stage, to see where the time goes.
 //!
@@ -20,11 +26,13 @@
 use std::time::Instant;
 
 use countersteer::campaign::StepTable;
+use countersteer::novelty::eigen::jacobi_eigen;
 use countersteer::novelty::index::KnnIndex;
 use countersteer::novelty::model::build_model_from;
 use countersteer::novelty::query::{brute_knn, knn_rows};
 use countersteer::novelty::scale::robust_scale;
 use countersteer::novelty::score_steps;
+use countersteer::novelty::subspace::principal_axes;
 use countersteer::novelty::synth::{SynthSpec, spec, trajectories};
 use countersteer::progress::Progress;
 use countersteer::review::{PlanSettings, Planner, states_of_rows};
@@ -381,6 +389,129 @@ fn w3(a: &Args) {
     );
 }
 
+fn wide_data(dim: usize) -> (StepTable, StepTable) {
+    let mut s = SynthSpec::expert(8, 10, dim, 11);
+    s.latent = 6;
+    let demos = trajectories(&s);
+    let mut r = SynthSpec::expert(8, 10, dim, 12);
+    (r.drift, r.prefix) = (0.05, "roll".into());
+    (demos, trajectories(&r))
+}
+
+fn wide(a: &Args) {
+    for dim in [1_000, 10_000] {
+        println!("\n== wide: D = {dim}, 80 demonstration states, 80 steps, k = {K}");
+        let (demos, steps) = wide_data(dim);
+        let channels = spec(dim, 2).actions;
+        let p = Progress::new();
+        let (mut totals, mut eig, mut base) = (vec![], vec![], vec![]);
+        let inv: Vec<f32> = scales(&demos).iter().map(|s| 1.0 / s).collect();
+        let rows: Vec<u32> = (0..demos.len() as u32).collect();
+        for _ in 0..a.runs {
+            let (_, t) = time(|| {
+                let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
+                score_steps(&model, &demos, &channels, &steps, &p).expect("score")
+            });
+            totals.push(t);
+            let (_, te) = time(|| principal_axes(&demos.states, dim, &inv, &rows));
+            eig.push(te);
+            base.push(brute_per_query(&demos, &inv, &steps, steps.len()) * steps.len() as f64);
+        }
+        let model = build_model_from(&demos, scales(&demos), K, ALPHA, &p).expect("model");
+        println!("search path                 {}", model.index().path());
+        let t = median(totals);
+        println!(
+            "build + calibrate + score   {t:8.3} s  target < 10 s: {}",
+            verdict(t < 10.0)
+        );
+        println!(
+            "  of which leading axes     {:8.3} s (per principal_axes call)",
+            median(eig)
+        );
+        println!(
+            "baseline brute force k-NN   {:8.3} s  (the 80 steps, 1 thread)",
+            median(base)
+        );
+    }
+}
+
+/// The former full Jacobi eigen-solver on the covariance (only with `--only widejacobi`).
+fn wide_jacobi() {
+    for dim in [500, 1_000] {
+        let (demos, _) = wide_data(dim);
+        let inv: Vec<f32> = scales(&demos).iter().map(|s| 1.0 / s).collect();
+        let rows: Vec<u32> = (0..demos.len() as u32).collect();
+        let (_, tn) = time(|| principal_axes(&demos.states, dim, &inv, &rows));
+        let x: Vec<f64> = demos.states.iter().map(|&v| f64::from(v)).collect();
+        let mut cov = vec![0.0f64; dim * dim];
+        for p in x.chunks_exact(dim) {
+            for i in 0..dim {
+                for j in 0..dim {
+                    cov[i * dim + j] += p[i] * p[j];
+                }
+            }
+        }
+        let (_, tj) = time(|| jacobi_eigen(cov, dim));
+        println!(
+            "\n== widejacobi: D = {dim}: leading axes {tn:8.3} s, baseline full Jacobi {tj:8.3} s"
+        );
+    }
+}
+
+/// Writes a campaign folder holding only `demos`, in JSON Lines or .npz.
+fn write_load_campaign(root: &std::path::Path, demos: &StepTable, npz: bool) {
+    use countersteer::campaign::write::{write_jsonl, write_npz};
+    let c = countersteer::novelty::synth::campaign(demos.clone(), StepTable::new(16, 2), K, ALPHA);
+    std::fs::create_dir_all(root.join("demonstrations")).expect("folder");
+    let spec = serde_json::to_vec_pretty(&c.file).expect("spec");
+    std::fs::write(root.join("campaign.json"), spec).expect("campaign.json");
+    let name = if npz { "d.npz" } else { "d.jsonl" };
+    let f = std::fs::File::create(root.join("demonstrations").join(name)).expect("create");
+    let w = std::io::BufWriter::new(f);
+    if npz {
+        write_npz(demos, w).expect("npz");
+    } else {
+        write_jsonl(demos, c.spec(), "demonstrations", w).expect("jsonl");
+    }
+}
+
+fn load_bench(a: &Args) {
+    use countersteer::campaign::{LoadOptions, load_campaign};
+    println!("\n== load: 2M demonstration steps, D = 16, A = 2: peak memory of loading");
+    let dir = std::env::temp_dir().join(format!("countersteer-load-{}", std::process::id()));
+    {
+        let demos = trajectories(&SynthSpec::expert(4000, 500, 16, 1));
+        write_load_campaign(&dir.join("jsonl"), &demos, false);
+        write_load_campaign(&dir.join("npz"), &demos, true);
+    }
+    let mut peaks = [0.0f64; 2];
+    let mut secs = [vec![], vec![]];
+    for _ in 0..a.runs {
+        for (i, kind) in ["jsonl", "npz"].iter().enumerate() {
+            let before = reset_peak();
+            let (c, t) = time(|| {
+                load_campaign(&dir.join(kind), &LoadOptions::default(), &Progress::new())
+                    .expect("load")
+            });
+            peaks[i] = peaks[i].max(status_kb("VmHWM:") - before);
+            secs[i].push(t);
+            drop(c);
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    let [j, n] = [mb(peaks[0]), mb(peaks[1])];
+    println!(
+        "baseline JSON Lines          {j:8.1} MB peak  {:8.3} s",
+        median(secs[0].clone())
+    );
+    println!(
+        ".npz (streamed arrays)       {n:8.1} MB peak  {:8.3} s  ratio {:.2}: target <= 1.5: {}",
+        median(secs[1].clone()),
+        n / j,
+        verdict(n <= 1.5 * j)
+    );
+}
+
 fn plan_bench(a: &Args) {
     println!("\n== plan: 500-step review list from 1M scored steps (D = 16)");
     let demos = trajectories(&SynthSpec::expert(400, 500, 16, 1));
@@ -459,6 +590,15 @@ fn main() {
     }
     if want("w3") {
         w3(&a);
+    }
+    if want("wide") {
+        wide(&a);
+    }
+    if a.only.iter().any(|o| o == "widejacobi") {
+        wide_jacobi();
+    }
+    if want("load") {
+        load_bench(&a);
     }
     if want("plan") {
         plan_bench(&a);

@@ -1,7 +1,9 @@
 //! Benchmark of the corrections path: ledger append latency with fsync (against the same
-//! append without fsync), and merged-set export throughput (against the campaign's plain
-//! table writers on the same rows). Run in release:
-//! `cargo run --release --bin bench_ledger [-- --appends N --rows N]`.
+//! append without fsync), bulk corrections (`correct --from`, against one `correct` process
+//! per correction on the same campaign), and merged-set export throughput (against the
+//! campaign's plain table writers on the same rows). Run in release:
+//! `cargo build --release && cargo run --release --bin bench_ledger [-- --appends N --rows N
+//! --corrections N --sample N]`.
 
 use std::io::Write;
 use std::path::Path;
@@ -229,14 +231,173 @@ fn bench_export(dir: &Path, rows: usize) {
     );
 }
 
+/// The `countersteer` binary built beside this benchmark.
+fn countersteer_exe() -> Option<std::path::PathBuf> {
+    let me = std::env::current_exe().ok()?;
+    let exe = me.with_file_name(format!("countersteer{}", std::env::consts::EXE_SUFFIX));
+    exe.is_file().then_some(exe)
+}
+
+/// Writes a campaign for the bulk benchmark: 12 features, channels `steer` and `gear`
+/// (discrete), `rows` round-1 steps in episodes of 500; returns it loaded.
+fn bulk_campaign(dir: &Path, rows: usize) -> Campaign {
+    let mut s = spec();
+    s.actions[1] = ActionChannel {
+        name: "gear".into(),
+        unit: String::new(),
+        kind: ChannelKind::Discrete {
+            choices: vec!["low".into(), "high".into()],
+        },
+    };
+    let file = CampaignFile {
+        name: "bulk".into(),
+        description: String::new(),
+        step_seconds: None,
+        spec: s.clone(),
+        novelty: NoveltySettings::default(),
+    };
+    std::fs::create_dir_all(dir.join("rounds/1")).expect("create campaign");
+    std::fs::create_dir_all(dir.join("demonstrations")).expect("create campaign");
+    std::fs::write(
+        dir.join("campaign.json"),
+        serde_json::to_vec(&file).expect("json"),
+    )
+    .expect("write campaign.json");
+    let write = |rel: &str, t: &StepTable| {
+        let mut t = t.clone();
+        for i in 0..t.len() {
+            t.actions[i * 2 + 1] = (i % 2) as f32;
+        }
+        let f = std::fs::File::create(dir.join(rel)).expect("create");
+        countersteer::campaign::write::write_jsonl(&t, &s, "", std::io::BufWriter::new(f))
+            .expect("write");
+    };
+    write("demonstrations/demo.jsonl", &table(2000, 0.0));
+    write("rounds/1/steps.jsonl", &table(rows, 0.5));
+    countersteer::campaign::load_campaign(dir, &Default::default(), &Progress::new())
+        .expect("load bulk campaign")
+}
+
+/// The i-th correction of the benchmark's batch: (episode, t, steer, gear).
+fn bulk_row(c: &Campaign, i: usize) -> (String, i64, f64, &'static str) {
+    let steps = &c.rounds[0].steps;
+    let row = i % steps.len();
+    let ep = steps.episodes[steps.episode_of(row)].name.clone();
+    let gear = if i.is_multiple_of(2) { "low" } else { "high" };
+    (ep, steps.t[row], ((i % 200) as f64 - 100.0) * 0.01, gear)
+}
+
+fn median_ms(mut d: Vec<Duration>) -> f64 {
+    d.sort();
+    d[d.len() / 2].as_secs_f64() * 1e3
+}
+
+/// Median wall time of one `countersteer correct` process per correction, over `sample`
+/// corrections appended to `who`'s ledger.
+fn per_call_ms(exe: &Path, c: &Campaign, who: &str, sample: usize) -> f64 {
+    let times = (0..sample)
+        .map(|i| {
+            let (ep, t, steer, gear) = bulk_row(c, i);
+            let t0 = Instant::now();
+            let out = std::process::Command::new(exe)
+                .arg("correct")
+                .arg(&c.root)
+                .args(["--annotator", who, "--round", "1", "--episode", &ep])
+                .args([
+                    "--t",
+                    &t.to_string(),
+                    "--action",
+                    &format!("{steer},{gear}"),
+                ])
+                .output()
+                .expect("run countersteer");
+            assert!(
+                out.status.success(),
+                "{}",
+                String::from_utf8_lossy(&out.stderr)
+            );
+            t0.elapsed()
+        })
+        .collect();
+    median_ms(times)
+}
+
+/// Bulk corrections: `n` verdicts applied by the library and by `correct --from`, against
+/// one `correct` process per correction (a sample, extrapolated).
+fn bench_bulk(dir: &Path, n: usize, sample: usize) {
+    let c = bulk_campaign(dir, n.max(1000));
+    let csv = dir.join("bulk.csv");
+    let mut text = String::from("round,episode,t,steer,gear,verdict,note\n");
+    for i in 0..n {
+        let (ep, t, steer, gear) = bulk_row(&c, i);
+        match i % 50 {
+            7 => text.push_str(&format!("1,{ep},{t},,,skip,\n")),
+            8 => text.push_str(&format!("1,{ep},{t},,,unrecoverable,far off\n")),
+            _ => text.push_str(&format!("1,{ep},{t},{steer},{gear},,\n")),
+        }
+    }
+    std::fs::write(&csv, text).expect("write batch");
+    println!(
+        "bulk corrections, {n} verdicts on a round of {} steps:",
+        c.rounds[0].steps.len()
+    );
+    let t0 = Instant::now();
+    let b = countersteer::ledger::read_batch(&csv, c.spec()).expect("read batch");
+    let read_s = t0.elapsed().as_secs_f64();
+    let t1 = Instant::now();
+    let (mut l, _, _) = countersteer::ledger::batch::open(&c.root, "lib").expect("open");
+    let done = countersteer::ledger::batch::apply(&c, &mut l, &b).expect("apply");
+    let apply_s = t1.elapsed().as_secs_f64();
+    assert_eq!(done.records.len(), n);
+    drop(l);
+    println!(
+        "  library: read {read_s:6.3} s + check, append, fsync {apply_s:6.3} s = {:6.3} s",
+        read_s + apply_s
+    );
+    let Some(exe) = countersteer_exe() else {
+        println!("  (build the countersteer binary in the same profile to compare processes)");
+        return;
+    };
+    let t0 = Instant::now();
+    let out = std::process::Command::new(&exe)
+        .arg("correct")
+        .arg(&c.root)
+        .args(["--annotator", "cli", "--from"])
+        .arg(&csv)
+        .output()
+        .expect("run countersteer");
+    let cli_s = t0.elapsed().as_secs_f64();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    println!(
+        "  `correct --from` (one process, campaign load included)   {cli_s:8.3} s   target < 2 s"
+    );
+    let empty = per_call_ms(&exe, &c, "per-call", sample);
+    // The same per-call cost on a ledger that already holds the whole batch: each call
+    // reads its ledger, so the cost grows as the corrections accumulate.
+    let full = per_call_ms(&exe, &c, "cli", sample);
+    let total = n as f64 * (empty + full) / 2.0 / 1e3;
+    println!(
+        "  baseline: one `correct` process per correction, median {empty:.1} ms (empty ledger), \
+         {full:.1} ms (ledger of {n}); {n} calls about {total:.0} s ({:.0}x)",
+        total / cli_s
+    );
+}
+
 fn main() {
     let appends = arg("--appends", 1000);
+    let corrections = arg("--corrections", 20_000);
+    let sample = arg("--sample", 40);
     let rows = arg("--rows", 200_000);
     // Under target/ (a real disk): /tmp may be a RAM file system where fsync costs nothing.
     let base = Path::new("target").join("bench-ledger");
     let _ = std::fs::remove_dir_all(&base);
     std::fs::create_dir_all(&base).expect("create bench folder");
     bench_appends(&base, appends);
+    bench_bulk(&base.join("bulk"), corrections, sample);
     bench_export(&base, rows);
     let _ = std::fs::remove_dir_all(&base);
 }

@@ -10,13 +10,14 @@
 use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
-use countersteer::app::signals::{ExcursionRows, RoundSignals};
+use countersteer::app::signals::RoundSignals;
 use countersteer::app::{UiState, Workbench};
 use countersteer::campaign::{
     ActionChannel, Campaign, CampaignFile, ChannelKind, Episode, Feature, NoveltySettings, Round,
     Spec, StepTable,
 };
 use countersteer::novelty::RoundScores;
+use countersteer::review::Excursion;
 
 const STATE_DIM: usize = 8;
 
@@ -81,7 +82,7 @@ fn signals(n: usize) -> RoundSignals {
         .collect();
     let flagged: Vec<bool> = novelty.iter().map(|&v| v > 1.6).collect();
     let excursions = (0..n / 20_000)
-        .map(|j| ExcursionRows {
+        .map(|j| Excursion {
             episode: 0,
             onset: j * 20_000,
             peak: j * 20_000 + 100,
@@ -90,6 +91,7 @@ fn signals(n: usize) -> RoundSignals {
         .collect();
     RoundSignals {
         round: 1,
+        source: Default::default(),
         scores: RoundScores {
             k: 5,
             p_value: novelty.iter().map(|&v| (2.0 - v).clamp(0.0, 1.0)).collect(),

@@ -73,7 +73,8 @@ fn columns(header: &csv::StringRecord, spec: &Spec, log: &mut ProblemLog) -> Opt
             format!("column `{h}` is not in the spec"),
         );
     }
-    if !missing.is_empty() {
+    let doubled = duplicates(header, log);
+    if !missing.is_empty() || doubled {
         return None;
     }
     Some(Columns {
@@ -88,6 +89,29 @@ fn columns(header: &csv::StringRecord, spec: &Spec, log: &mut ProblemLog) -> Opt
         outcome: find("outcome"),
         width: header.len(),
     })
+}
+
+/// Reports every header name that appears more than once (which of the copies holds the
+/// data cannot be known); true when there is one.
+fn duplicates(header: &csv::StringRecord, log: &mut ProblemLog) -> bool {
+    let names: Vec<&str> = header.iter().map(str::trim).collect();
+    let mut found = false;
+    for (i, h) in names.iter().enumerate() {
+        if let Some(first) = names[..i].iter().position(|x| x == h) {
+            found = true;
+            log.error(
+                ProblemKind::DuplicateColumn,
+                Location::Line(1),
+                *h,
+                format!(
+                    "column `{h}` appears twice (columns {} and {}); keep one",
+                    first + 1,
+                    i + 1
+                ),
+            );
+        }
+    }
+    found
 }
 
 /// Reads one CSV step file into the builder, reporting every fault to `log`.

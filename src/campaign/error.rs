@@ -71,6 +71,13 @@ pub enum ProblemKind {
     NotUtf8,
     /// Two different outcomes given for one episode.
     ConflictingOutcome,
+    /// A frame image that does not decode (or declares more than the decoder's limits).
+    BadFrame,
+    /// A CSV header names one column twice.
+    DuplicateColumn,
+    /// A file or folder in a data folder that is not read (a warning), or a round folder
+    /// whose name is not a plain number (an error).
+    Skipped,
 }
 
 /// Whether a problem stops the campaign from loading.

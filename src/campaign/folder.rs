@@ -57,6 +57,10 @@ pub struct LoadOptions {
     /// Most records one data file may hold; a file with more is refused with a located
     /// error (default [`DEFAULT_RECORD_CAP`]).
     pub record_cap: usize,
+    /// Decode every frame image (under [`super::frame::frame_limits`]) and report those that
+    /// do not decode like missing ones; `countersteer check` does, other loads only check
+    /// that the files exist.
+    pub decode_frames: bool,
 }
 
 impl Default for LoadOptions {
@@ -65,6 +69,7 @@ impl Default for LoadOptions {
             problem_cap: 50,
             strict: false,
             record_cap: DEFAULT_RECORD_CAP,
+            decode_frames: false,
         }
     }
 }
@@ -93,56 +98,157 @@ impl CheckReport {
     }
 }
 
-/// Lists the data files of one folder (sorted by name; other files are ignored). Links are
-/// listed too (and checked when read: a link leading outside the campaign is refused).
+/// Lists the data files of one folder (sorted by name). Links are listed too (and checked
+/// when read: a link leading outside the campaign is refused). Everything else is skipped:
+/// see [`list_folder`].
 pub fn data_files(root: &Path, rel_dir: &Path) -> std::io::Result<Vec<DataFile>> {
-    let mut out = Vec::new();
-    for entry in std::fs::read_dir(root.join(rel_dir))? {
-        let entry = entry?;
-        let kind = entry.file_type()?;
-        if !(kind.is_file() || kind.is_symlink() && !entry.path().is_dir()) {
-            continue;
-        }
-        let name = entry.file_name().to_string_lossy().into_owned();
-        let format = if name.starts_with('.') {
-            continue;
-        } else if name.ends_with(".jsonl") {
-            DataFormat::JsonLines
-        } else if name.ends_with(".csv") {
-            DataFormat::Csv
-        } else if name.ends_with(".npz") {
-            DataFormat::Npz
-        } else if name.ends_with(".states.npy") {
-            DataFormat::NpySet
-        } else {
-            continue;
-        };
-        out.push(DataFile {
-            rel: rel_dir.join(&name),
-            format,
-        });
-    }
-    out.sort_by(|a, b| a.rel.cmp(&b.rel));
-    Ok(out)
+    list_folder(root, rel_dir).map(|(files, _)| files)
 }
 
-/// Round numbers found under `rounds/`, ascending.
+/// The data format a file name announces, `None` for a name no loader reads.
+fn format_of(name: &str) -> Option<DataFormat> {
+    if name.starts_with('.') {
+        None
+    } else if name.ends_with(".jsonl") {
+        Some(DataFormat::JsonLines)
+    } else if name.ends_with(".csv") {
+        Some(DataFormat::Csv)
+    } else if name.ends_with(".npz") {
+        Some(DataFormat::Npz)
+    } else if name.ends_with(".states.npy") {
+        Some(DataFormat::NpySet)
+    } else {
+        None
+    }
+}
+
+/// Whether `name` is a sibling array (`<stem>.<array>.npy`) of a `<stem>.states.npy` that
+/// is in `names`: read with its set, so not skipped.
+fn in_npy_set(name: &str, names: &[String]) -> bool {
+    let Some(base) = name.strip_suffix(".npy") else {
+        return false;
+    };
+    super::numpy::ARRAY_NAMES.iter().any(|a| {
+        base.strip_suffix(a)
+            .and_then(|s| s.strip_suffix('.'))
+            .is_some_and(|stem| names.iter().any(|n| *n == format!("{stem}.states.npy")))
+    })
+}
+
+/// The data files of one folder (sorted by name) and a warning for every other entry,
+/// which is not read: folders (except `frames/`), hidden files, and files whose name no
+/// loader reads (a `.npy` beside its set's `.states.npy` belongs to the set).
+pub fn list_folder(root: &Path, rel_dir: &Path) -> std::io::Result<(Vec<DataFile>, Vec<Problem>)> {
+    let mut entries = Vec::new();
+    for entry in std::fs::read_dir(root.join(rel_dir))? {
+        let entry = entry?;
+        let is_dir = entry.path().is_dir();
+        entries.push((entry.file_name().to_string_lossy().into_owned(), is_dir));
+    }
+    entries.sort();
+    let names: Vec<String> = entries.iter().map(|(n, _)| n.clone()).collect();
+    let (mut files, mut skipped) = (Vec::new(), Vec::new());
+    for (name, is_dir) in entries {
+        let rel = rel_dir.join(&name);
+        let why = match (is_dir, format_of(&name)) {
+            (true, _) if name == "frames" => continue,
+            (true, _) => "a folder inside a data folder is not read",
+            (false, Some(format)) => {
+                files.push(DataFile { rel, format });
+                continue;
+            }
+            (false, None) if in_npy_set(&name, &names) => continue,
+            (false, None) if name.starts_with('.') => "a hidden file is not read",
+            (false, None) => {
+                "not a data file (.jsonl, .csv, .npz, or .npy arrays beside a .states.npy)"
+            }
+        };
+        skipped.push(skipped_problem(
+            &rel,
+            Severity::Warning,
+            format!("skipped: {why}"),
+        ));
+    }
+    Ok((files, skipped))
+}
+
+fn skipped_problem(rel: &Path, severity: Severity, message: String) -> Problem {
+    Problem {
+        severity,
+        kind: ProblemKind::Skipped,
+        file: rel.to_path_buf(),
+        location: Location::File,
+        field: String::new(),
+        message,
+    }
+}
+
+/// Round numbers found under `rounds/`, ascending (see [`round_folders`]).
 pub fn round_numbers(root: &Path) -> std::io::Result<Vec<u32>> {
+    round_folders(root).map(|(numbers, _)| numbers)
+}
+
+/// The round a folder name stands for: `Ok(n)` for a plain decimal number (`0`, `1`, `12`;
+/// no sign, no leading zero, at most `u32::MAX`), `Err(Some(reason))` for a name that is a
+/// number written another way (`01`, `+1`, `4294967296`), `Err(None)` for any other name.
+fn round_number(name: &str) -> Result<u32, Option<String>> {
+    let digits = name.strip_prefix('+').unwrap_or(name);
+    if digits.is_empty() || !digits.bytes().all(|b| b.is_ascii_digit()) {
+        return Err(None);
+    }
+    match digits.parse::<u32>() {
+        Ok(n) if n.to_string() == name => Ok(n),
+        Ok(n) => Err(Some(format!(
+            "a round folder is named by its number written plainly (no sign, no leading zero): \
+             rename `{name}` to `{n}`"
+        ))),
+        Err(_) => Err(Some(format!(
+            "round number `{name}` is larger than {}",
+            u32::MAX
+        ))),
+    }
+}
+
+/// Round numbers under `rounds/` (ascending) and the problems of its other entries. One rule:
+/// a round folder is named by its number written plainly (`rounds/1/`, never `rounds/01/`);
+/// any other spelling of a number is refused with an error, so that two folders can never
+/// stand for one round. Files and folders with other names are skipped with a warning.
+pub fn round_folders(root: &Path) -> std::io::Result<(Vec<u32>, Vec<Problem>)> {
     let dir = root.join(ROUNDS_DIR);
     if !dir.is_dir() {
-        return Ok(Vec::new());
+        return Ok((Vec::new(), Vec::new()));
     }
-    let mut out = Vec::new();
+    let mut entries = Vec::new();
     for entry in std::fs::read_dir(dir)? {
         let entry = entry?;
-        if entry.path().is_dir()
-            && let Ok(n) = entry.file_name().to_string_lossy().parse::<u32>()
-        {
-            out.push(n);
-        }
+        entries.push((
+            entry.file_name().to_string_lossy().into_owned(),
+            entry.path().is_dir(),
+        ));
+    }
+    entries.sort();
+    let (mut out, mut problems) = (Vec::new(), Vec::new());
+    for (name, is_dir) in entries {
+        let rel = Path::new(ROUNDS_DIR).join(&name);
+        let (severity, why) = match (is_dir, round_number(&name)) {
+            (true, Ok(n)) => {
+                out.push(n);
+                continue;
+            }
+            (true, Err(Some(why))) => (Severity::Error, why),
+            (true, Err(None)) => (
+                Severity::Warning,
+                "skipped: not a round folder (rounds are folders named by their number, e.g. rounds/1/)".into(),
+            ),
+            (false, _) => (
+                Severity::Warning,
+                "skipped: a file directly in rounds/ is not read (a round's files go in rounds/<number>/)".into(),
+            ),
+        };
+        problems.push(skipped_problem(&rel, severity, why));
     }
     out.sort_unstable();
-    Ok(out)
+    Ok((out, problems))
 }
 
 fn read_spec_bytes(root: &Path) -> Result<Vec<u8>, (ProblemKind, String)> {
@@ -357,6 +463,7 @@ fn load_table(
     more: &mut usize,
 ) -> (Option<StepTable>, Vec<FileDigest>) {
     let mut inputs = Vec::new();
+    let ok_skipped;
     if let Err(e @ Refused::Outside(_)) = confined(root, rel_dir) {
         problems.push(folder_problem(
             rel_dir,
@@ -365,8 +472,12 @@ fn load_table(
         ));
         return (None, inputs);
     }
-    let files = match data_files(root, rel_dir) {
-        Ok(f) => f,
+    let files = match list_folder(root, rel_dir) {
+        Ok((f, skipped)) => {
+            ok_skipped = !opts.strict || skipped.is_empty();
+            problems.extend(skipped);
+            f
+        }
         Err(e) => {
             problems.push(folder_problem(
                 rel_dir,
@@ -387,7 +498,7 @@ fn load_table(
     let mut b = StepTableBuilder::new(file.spec.state_dim(), file.spec.action_dim());
     b.set_record_cap(opts.record_cap);
     let mut checker = RowChecker::new(&file.spec);
-    let mut ok = true;
+    let mut ok = ok_skipped;
     for f in &files {
         let mut log = ProblemLog::new(&f.rel, opts.problem_cap);
         inputs.extend(read_data_file(
@@ -430,7 +541,18 @@ fn check_frames(
     };
     for (row, rel) in &table.frames {
         let (severity, kind, message) = match inside.resolve(Path::new(rel)) {
-            Ok(p) if p.is_file() => continue,
+            Ok(p) if p.is_file() && !opts.decode_frames => continue,
+            Ok(p) if p.is_file() => match super::frame::decode_frame(root, rel) {
+                Ok(_) => continue,
+                Err(e) => (
+                    warn_or_error,
+                    ProblemKind::BadFrame,
+                    format!(
+                        "does not decode: {}",
+                        e.trim_start_matches(&format!("frame `{rel}`: "))
+                    ),
+                ),
+            },
             Ok(_) => (
                 warn_or_error,
                 ProblemKind::MissingFrame,
@@ -518,8 +640,12 @@ pub fn check_campaign(root: &Path, opts: &LoadOptions, progress: &Progress) -> C
     inputs.extend(read);
     let mut rounds = Vec::new();
     let mut rounds_ok = true;
-    match round_numbers(root) {
-        Ok(ns) => {
+    match round_folders(root) {
+        Ok((ns, round_problems)) => {
+            rounds_ok &= !round_problems
+                .iter()
+                .any(|p| p.severity == Severity::Error || opts.strict);
+            problems.extend(round_problems);
             for n in ns {
                 let rel = Path::new(ROUNDS_DIR).join(n.to_string());
                 let (loaded, read) =

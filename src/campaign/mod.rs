@@ -6,6 +6,7 @@
 //! Every other fault is an error.
 
 mod accept;
+pub mod arrays;
 pub mod confine;
 pub mod csv;
 pub mod digest;

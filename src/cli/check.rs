@@ -5,10 +5,11 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
-use crate::campaign::summary::summarize_campaign;
-use crate::campaign::{LoadOptions, Severity, check_campaign};
-use crate::novelty::scale::scales_with_origin;
-use crate::progress::Progress;
+use countersteer::campaign::summary::summarize_campaign;
+use countersteer::campaign::{LoadOptions, Severity, check_campaign};
+use countersteer::novelty::model::{calibration_count, check_alpha, without_spread};
+use countersteer::novelty::scale::scales_with_origin;
+use countersteer::progress::Progress;
 
 /// Arguments of `check`.
 #[derive(Debug, Args)]
@@ -22,8 +23,24 @@ pub struct CheckArgs {
     #[arg(long)]
     pub strict: bool,
     /// Most records one data file may hold; a file with more is refused.
-    #[arg(long, default_value_t = crate::campaign::steps::DEFAULT_RECORD_CAP)]
+    #[arg(long, default_value_t = countersteer::campaign::steps::DEFAULT_RECORD_CAP)]
     pub max_records: usize,
+}
+
+/// The novelty settings against the demonstrations: an alpha below what the calibration can
+/// resolve is refused; demonstrations without spread are warned about. Returns the warnings.
+fn novelty_checks(c: &countersteer::campaign::Campaign) -> Result<usize, CliError> {
+    if let Ok(n) = calibration_count(&c.demonstrations, c.file.novelty.alpha) {
+        check_alpha(c.file.novelty.alpha, n).map_err(|e| CliError::invalid(e.to_string()))?;
+    }
+    if without_spread(&c.demonstrations) {
+        tell!(
+            "warning: demonstrations: every demonstration state is the same; novelty is then \
+             0 only for that state and every other state is flagged"
+        );
+        return Ok(1);
+    }
+    Ok(0)
 }
 
 /// Runs `check`.
@@ -38,6 +55,7 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         problem_cap: a.max_problems.max(1),
         strict: a.strict,
         record_cap: a.max_records.max(1),
+        decode_frames: true,
     };
     let progress = Progress::new();
     let report = {
@@ -45,10 +63,10 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         check_campaign(&a.dir, &opts, &progress)
     };
     for p in &report.problems {
-        eprintln!("{p}");
+        tell!("{p}");
     }
     if report.more > 0 {
-        eprintln!(
+        tell!(
             "... and {} more problem(s) not shown (raise --max-problems)",
             report.more
         );
@@ -66,21 +84,31 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
             if report.more > 0 { " shown" } else { "" }
         )));
     };
-    println!("campaign `{}` in {}", c.file.name, a.dir.display());
-    println!(
+    let warnings = warnings + novelty_checks(&c)?;
+    say!("campaign `{}` in {}", c.file.name, a.dir.display());
+    say!(
         "  spec: {} state features, {} action channels",
         c.spec().state_dim(),
         c.spec().action_dim()
     );
     for s in summarize_campaign(&c) {
-        println!(
+        say!(
             "{}: {} episodes, {} steps, {} interventions, {} frames, {} with ensemble samples",
-            s.label, s.episodes, s.steps, s.interventions, s.frames, s.with_samples
+            s.label,
+            s.episodes,
+            s.steps,
+            s.interventions,
+            s.frames,
+            s.with_samples
         );
         for f in &s.features {
-            println!(
+            say!(
                 "    {:<24} {:>12.4} .. {:<12.4} mean {:>10.4} {}",
-                f.name, f.min, f.max, f.mean, f.unit
+                f.name,
+                f.min,
+                f.max,
+                f.mean,
+                f.unit
             );
         }
     }
@@ -91,8 +119,8 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         super::score::print_scales(c.spec(), &scale, &origin);
     }
     if warnings > 0 {
-        println!("{warnings} warning(s) above; the data was used as described in each");
+        say!("{warnings} warning(s) above; the data was used as described in each");
     }
-    println!("ok");
+    say!("ok");
     Ok(())
 }

@@ -1,16 +1,18 @@
 //! `countersteer correct DIR ...`: append one correction (or a retraction) to an annotator's
-//! ledger, for scripted or remote entry.
+//! ledger, for scripted or remote entry; `--from FILE` appends a whole batch of verdicts
+//! (CSV or JSON Lines) with one fsync, all or nothing.
 
 use std::path::{Path, PathBuf};
 
 use clap::Args;
 
 use super::{CliError, campaign_dir};
-use crate::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
-use crate::ledger::{
-    ActionValue, Correction, Entry, Ledger, OpenReport, Record, Verdict, fingerprint,
+use countersteer::campaign::{Campaign, ChannelKind, LoadOptions, Spec, load_campaign};
+use countersteer::ledger::{
+    ActionValue, BatchError, Correction, Entry, Ledger, OpenReport, Record, UnfinishedBatch,
+    Verdict, batch, fingerprint, read_batch,
 };
-use crate::progress::Progress;
+use countersteer::progress::Progress;
 
 /// Arguments of `correct`.
 #[derive(Debug, Args)]
@@ -51,6 +53,10 @@ pub struct CorrectArgs {
     /// Free-text note stored with the correction.
     #[arg(long)]
     pub note: Option<String>,
+    /// Apply every verdict of a CSV or JSON Lines file (fields `round`, `episode`, `t`, one
+    /// per action channel, `verdict`, `retract`, `note`): checked first, all or nothing.
+    #[arg(long, value_name = "FILE", conflicts_with_all = ["round", "episode", "t", "verdict", "note"])]
+    pub from: Option<PathBuf>,
 }
 
 /// The annotator: the option, else the environment.
@@ -142,9 +148,12 @@ fn describe(spec: &Spec, r: &Record) -> String {
     }
 }
 
-fn print_open_report(report: &OpenReport) {
+fn print_open_report(report: &OpenReport, unfinished: Option<&UnfinishedBatch>) {
+    if let Some(u) = unfinished {
+        print_unfinished(u);
+    }
     if let Some(a) = &report.set_aside {
-        eprintln!(
+        tell!(
             "note: a torn last line (line {}, {} bytes, left by an interrupted write) was moved to {}",
             a.line,
             a.bytes,
@@ -152,14 +161,14 @@ fn print_open_report(report: &OpenReport) {
         );
     }
     for p in &report.problems {
-        eprintln!("warning: {p} (line left in place and not used)");
+        tell!("warning: {p} (line left in place and not used)");
     }
 }
 
 /// Prints a warning for every entry of `ledgers/` that is not read as a ledger.
 pub fn warn_skipped_ledgers(root: &Path) {
-    for s in crate::ledger::skipped_entries(root) {
-        eprintln!("warning: {s}");
+    for s in countersteer::ledger::skipped_entries(root) {
+        tell!("warning: {s}");
     }
 }
 
@@ -199,17 +208,88 @@ fn check_retraction(a: &CorrectArgs, ledger: &Ledger, seq: u64) -> Result<(), Cl
 pub fn load(dir: &Path) -> Result<Campaign, CliError> {
     let root = campaign_dir(dir)?;
     load_campaign(&root, &LoadOptions::default(), &Progress::new()).map_err(|e| {
-        if let crate::campaign::CampaignError::Invalid { problems, .. } = &e {
+        if let countersteer::campaign::CampaignError::Invalid { problems, .. } = &e {
             for p in problems {
-                eprintln!("{p}");
+                tell!("{p}");
             }
         }
         CliError::invalid(format!("{}: {e}", root.display()))
     })
 }
 
+/// Says which records of a batch interrupted by a crash are not in the ledger.
+fn print_unfinished(u: &UnfinishedBatch) {
+    tell!(
+        "note: a batch from {} was interrupted: {} of its {} records are in the ledger, {} are \
+         NOT (never acknowledged; apply these lines again):",
+        u.source.display(),
+        u.saved,
+        u.total,
+        u.missing.len()
+    );
+    for m in &u.missing {
+        tell!("  line {}: {} (would have been #{})", m.line, m.what, m.seq);
+    }
+    tell!("  (its journal is kept at {})", u.kept.display());
+}
+
+/// Runs `correct --from FILE`: reads the batch, checks it whole, appends it.
+fn run_batch(a: &CorrectArgs, from: &Path) -> Result<(), CliError> {
+    let annotator = annotator_name(a.annotator.clone())?;
+    let c = load(&a.dir)?;
+    let b = read_batch(from, c.spec()).map_err(|e| CliError::usage(e.to_string()))?;
+    let (mut ledger, report, unfinished) =
+        batch::open(&c.root, &annotator).map_err(|e| CliError::usage(e.to_string()))?;
+    print_open_report(&report, unfinished.as_ref());
+    let done = batch::apply(&c, &mut ledger, &b).map_err(|e| {
+        if let BatchError::Invalid { problems, .. } = &e {
+            for p in problems {
+                tell!("{p}");
+            }
+        }
+        CliError::invalid(e.to_string())
+    })?;
+    if let Some(u) = &done.earlier_unfinished {
+        print_unfinished(u);
+    }
+    say!("{annotator} {} (saved)", summary(&done.records));
+    Ok(())
+}
+
+/// `N records #a..#b: x action, y skip, z unrecoverable, w retraction(s)`.
+fn summary(records: &[Record]) -> String {
+    let (Some(first), Some(last)) = (records.first(), records.last()) else {
+        return "0 records".into();
+    };
+    let mut counts = [0usize; 4];
+    for r in records {
+        let i = match &r.entry {
+            Entry::Correction(c) => match c.verdict {
+                Verdict::Action(_) => 0,
+                Verdict::Skip => 1,
+                Verdict::Unrecoverable => 2,
+            },
+            Entry::Retraction(_) => 3,
+        };
+        counts[i] += 1;
+    }
+    format!(
+        "{} records #{}..#{}: {} action, {} skip, {} unrecoverable, {} retraction(s)",
+        records.len(),
+        first.seq,
+        last.seq,
+        counts[0],
+        counts[1],
+        counts[2],
+        counts[3]
+    )
+}
+
 /// Runs `correct`.
 pub fn run(a: CorrectArgs) -> Result<(), CliError> {
+    if let Some(from) = &a.from {
+        return run_batch(&a, from);
+    }
     let annotator = annotator_name(a.annotator.clone())?;
     let c = load(&a.dir)?;
     let spec = c.spec();
@@ -228,9 +308,8 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         };
         Ok(step_correction(&a, &c, verdict)?)
     };
-    let (mut ledger, report) =
-        Ledger::open(&c.root, &annotator).map_err(|e| CliError::usage(e.to_string()))?;
-    print_open_report(&report);
+    let (mut ledger, report, unfinished) = batch::open(&c.root, &annotator)?;
+    print_open_report(&report, unfinished.as_ref());
     warn_skipped_ledgers(&c.root);
     if let Err(seq) = correction {
         check_retraction(&a, &ledger, seq)?;
@@ -239,7 +318,7 @@ pub fn run(a: CorrectArgs) -> Result<(), CliError> {
         Ok(corr) => ledger.append(corr),
         Err(seq) => ledger.retract(seq),
     }
-    .map_err(|e| CliError::invalid(e.to_string()))?;
-    println!("{annotator} {} (saved)", describe(spec, &record));
+    .map_err(CliError::from)?;
+    say!("{annotator} {} (saved)", describe(spec, &record));
     Ok(())
 }

@@ -5,8 +5,8 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
-use crate::progress::Progress;
-use crate::sim::{DemoConfig, DemoError, LearnerKind, write_demo_campaign};
+use countersteer::progress::Progress;
+use countersteer::sim::{DemoConfig, DemoError, LearnerKind, write_demo_campaign};
 
 /// Arguments of `demo`.
 #[derive(Debug, Args)]
@@ -68,9 +68,9 @@ pub fn run(a: DemoArgs) -> Result<(), CliError> {
         DemoError::NotEmpty(_) => CliError::usage(e.to_string()),
         other => CliError::invalid(other.to_string()),
     })?;
-    println!("demo campaign written to {}", a.dir.display());
+    say!("demo campaign written to {}", a.dir.display());
     for s in &summary.sets {
-        println!(
+        say!(
             "  {:<15} {:>4} episodes {:>7} steps, {:>3.0}% left the lane, {} intervention steps",
             s.label,
             s.episodes,
@@ -79,6 +79,6 @@ pub fn run(a: DemoArgs) -> Result<(), CliError> {
             s.intervention_steps
         );
     }
-    println!("  {} frame images", summary.frames);
+    say!("  {} frame images", summary.frames);
     Ok(())
 }

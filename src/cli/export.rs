@@ -7,10 +7,8 @@ use clap::{Args, ValueEnum};
 use super::CliError;
 use super::correct::load;
 use super::progress_bar::Bar;
-use crate::consensus::tally;
-use crate::export::{ExportError, ExportOptions, Format, Weighting, export, manifest_path};
-use crate::ledger::read_ledgers;
-use crate::progress::Progress;
+use countersteer::export::{ExportError, ExportOptions, Format, Weighting, export, manifest_path};
+use countersteer::progress::Progress;
 
 /// Merged-set file formats.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -92,9 +90,8 @@ fn options(a: &ExportArgs) -> Result<ExportOptions, CliError> {
 pub fn run(a: ExportArgs) -> Result<(), CliError> {
     let opts = options(&a)?;
     let c = load(&a.dir)?;
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
+    let t = countersteer::workflow::tally_campaign(&c)?.tally;
     super::correct::warn_skipped_ledgers(&c.root);
-    let t = tally(&c, &ledgers);
     let progress = Progress::new();
     let m = {
         let _bar = Bar::follow(&progress);
@@ -104,7 +101,7 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         ExportError::Invalid { .. } => CliError::invalid(e.to_string()),
         _ => CliError::usage(e.to_string()),
     })?;
-    println!(
+    say!(
         "wrote {}: {} rows ({} demonstration, {} correction)",
         a.out.display(),
         m.rows.total,
@@ -112,17 +109,19 @@ pub fn run(a: ExportArgs) -> Result<(), CliError> {
         m.rows.correction
     );
     let x = &m.excluded;
-    println!(
+    say!(
         "left out: {} without a consensus action, {} below --min-agreement, {} with too few annotators",
-        x.no_consensus_action, x.below_agreement, x.too_few_annotators
+        x.no_consensus_action,
+        x.below_agreement,
+        x.too_few_annotators
     );
     if !t.mismatches.is_empty() || !t.unapplied.is_empty() {
-        println!(
+        say!(
             "not applied: {} correction(s) whose step data changed, {} that fit no step (see `countersteer tally`)",
             t.mismatches.len(),
             t.unapplied.len()
         );
     }
-    println!("manifest: {}", manifest_path(&a.out).display());
+    say!("manifest: {}", manifest_path(&a.out).display());
     Ok(())
 }

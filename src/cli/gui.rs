@@ -5,7 +5,7 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::CliError;
-use crate::app::{RunError, Start, run};
+use countersteer::app::{RunError, Start, run};
 
 /// Arguments of `open`.
 #[derive(Debug, Args)]
@@ -27,7 +27,7 @@ pub fn run_gui(dir: Option<PathBuf>, start: Start) -> Result<(), CliError> {
         super::campaign_dir(d)?;
     }
     if let Some(a) = &start.annotator {
-        crate::ledger::check_annotator(a).map_err(|e| CliError::usage(e.to_string()))?;
+        countersteer::ledger::check_annotator(a).map_err(|e| CliError::usage(e.to_string()))?;
     }
     run(dir, start).map_err(|e| match e {
         RunError::NoDisplay(why) => CliError::usage(format!(

@@ -1,12 +1,23 @@
 //! The command line: argument parsing and one module per subcommand. Each subcommand is a
 //! thin caller of library functions; errors are printed and mapped to exit codes here.
 
+/// Prints a line to standard output without panicking (see [`out`]).
+macro_rules! say {
+    ($($t:tt)*) => { $crate::cli::out::line(format_args!($($t)*)) };
+}
+
+/// Prints a line to standard error without panicking (see [`out`]).
+macro_rules! tell {
+    ($($t:tt)*) => { $crate::cli::out::note(format_args!($($t)*)) };
+}
+
 mod check;
 mod correct;
 mod demo;
 mod export;
 #[cfg(feature = "gui")]
 mod gui;
+pub mod out;
 mod plan;
 mod progress_bar;
 pub mod rounds;
@@ -76,7 +87,7 @@ pub fn main() -> ExitCode {
         #[cfg(feature = "gui")]
         Some(Command::Open(a)) => gui::run_gui(
             Some(a.dir),
-            crate::app::Start {
+            countersteer::app::Start {
                 annotator: a.annotator,
                 review: a.review,
             },
@@ -94,7 +105,7 @@ pub fn main() -> ExitCode {
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("countersteer: {}", e.message);
+            tell!("countersteer: {}", e.message);
             ExitCode::from(e.code)
         }
     }
@@ -119,7 +130,7 @@ impl Command {
 /// Prints the safety caution on standard error, as one line (standard output stays the
 /// command's own result).
 pub fn print_caution() {
-    eprintln!("caution: {}", crate::SAFETY_CAUTION);
+    tell!("caution: {}", countersteer::SAFETY_CAUTION);
 }
 
 /// Without a subcommand: the workbench, or (built without the `gui` feature) a usage note.
@@ -160,9 +171,37 @@ impl CliError {
     }
 }
 
-/// The default campaign folder argument help.
-pub fn campaign_dir_help() -> &'static str {
-    "campaign folder (holds campaign.json)"
+/// A ledger error is a usage error (exit 2) in every command: a held lock, a bad annotator
+/// name, a ledger that cannot be read.
+impl From<countersteer::ledger::LedgerError> for CliError {
+    fn from(e: countersteer::ledger::LedgerError) -> Self {
+        CliError::usage(e.to_string())
+    }
+}
+
+/// The pipeline's errors: an unknown round and ledger errors are usage errors (exit 2); a
+/// failure to score is invalid data (exit 1).
+impl From<countersteer::workflow::WorkflowError> for CliError {
+    fn from(e: countersteer::workflow::WorkflowError) -> Self {
+        use countersteer::workflow::WorkflowError as W;
+        match e {
+            W::NoRound(_) => CliError::usage(e.to_string()),
+            W::Novelty(_) => CliError::invalid(e.to_string()),
+            W::Ledger(l) => l.into(),
+        }
+    }
+}
+
+/// The trend's errors map as the pipeline's do: a ledger that cannot be read is a usage error
+/// (exit 2), a failure to score invalid data (exit 1).
+impl From<countersteer::trend::TrendError> for CliError {
+    fn from(e: countersteer::trend::TrendError) -> Self {
+        use countersteer::trend::TrendError as T;
+        match e {
+            T::Workflow(w) => w.into(),
+            T::Ledger(l) => l.into(),
+        }
+    }
 }
 
 /// Resolves a campaign folder argument to a path that exists.
@@ -178,5 +217,5 @@ pub fn campaign_dir(dir: &Path) -> Result<PathBuf, CliError> {
 }
 
 fn countersteer_campaign_file() -> &'static str {
-    crate::campaign::folder::CAMPAIGN_FILE
+    countersteer::campaign::folder::CAMPAIGN_FILE
 }

@@ -5,14 +5,14 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::CliError;
-use super::score::{build_and_score, load};
-use crate::campaign::{Campaign, StepTable};
-use crate::ledger::read_ledgers;
-use crate::novelty::RoundScores;
-use crate::novelty::store::{load_scores, save_scores, scores_path};
-use crate::review::sitting::judgements;
-use crate::review::store::save_review_list;
-use crate::review::{PlanSettings, ReviewList, plan, states_of_rows};
+use super::progress_bar::Bar;
+use super::score::load;
+use countersteer::campaign::{Campaign, StepTable};
+use countersteer::novelty::RoundScores;
+use countersteer::progress::Progress;
+use countersteer::review::store::save_review_list;
+use countersteer::review::{DEFAULT_BUDGET, PlanSettings, ReviewList, plan, states_of_rows};
+use countersteer::workflow::{AnalysisOptions, ScoreSource, analyse, tally_campaign};
 
 /// Arguments of `plan`.
 #[derive(Debug, Args)]
@@ -23,7 +23,7 @@ pub struct PlanArgs {
     #[arg(long)]
     pub round: u32,
     /// Most steps on the list.
-    #[arg(long, default_value_t = 50)]
+    #[arg(long, default_value_t = DEFAULT_BUDGET)]
     pub budget: usize,
     /// Fewest steps between two entries of one episode.
     #[arg(long, default_value_t = 10)]
@@ -48,26 +48,29 @@ pub struct PlanArgs {
     pub no_fill: bool,
 }
 
-fn scores_for(c: &Campaign, a: &PlanArgs, steps: &StepTable) -> Result<RoundScores, CliError> {
-    if !a.rescore && scores_path(&c.root, a.round).is_file() {
-        match load_scores(&c.root, a.round, steps) {
-            Ok(s)
-                if s.k == c.file.novelty.k.min(c.demonstrations.len())
-                    && s.alpha == c.file.novelty.alpha =>
-            {
-                eprintln!(
-                    "using saved scores in {}",
-                    scores_path(&c.root, a.round).display()
-                );
-                return Ok(s);
-            }
-            Ok(_) => eprintln!("saved scores were made with other novelty settings; scoring again"),
-            Err(e) => eprintln!("{e}; scoring again"),
+fn analysis_for(c: &Campaign, a: &PlanArgs) -> Result<RoundScores, CliError> {
+    let options = AnalysisOptions {
+        rescore: a.rescore,
+        save: true,
+        ..Default::default()
+    };
+    let progress = Progress::new();
+    let analysis = {
+        let _bar = Bar::follow(&progress);
+        analyse(c, a.round, options, &progress)
+    }
+    .map_err(CliError::from)?;
+    match (&analysis.source, &analysis.stale) {
+        (ScoreSource::Saved(p), _) => tell!("using saved scores in {}", p.display()),
+        (ScoreSource::Scored(_), Some(why)) => tell!("{why}; scoring again"),
+        (ScoreSource::Scored(_), None) => {}
+    }
+    if let (ScoreSource::Scored(_), Some(m)) = (&analysis.source, &analysis.model) {
+        for w in m.warnings() {
+            tell!("warning: {w}");
         }
     }
-    let (_, s) = build_and_score(c, a.round)?;
-    save_scores(&c.root, a.round, steps, &s).map_err(|e| CliError::invalid(e.to_string()))?;
-    Ok(s)
+    Ok(analysis.scores)
 }
 
 /// Runs `plan`.
@@ -80,7 +83,7 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         .round(a.round)
         .ok_or_else(|| CliError::usage(format!("no round {} in rounds/", a.round)))?
         .steps;
-    let scores = scores_for(&c, &a, steps)?;
+    let scores = analysis_for(&c, &a)?;
     let settings = PlanSettings {
         budget: a.budget,
         min_gap: a.min_gap,
@@ -92,50 +95,51 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         ..Default::default()
     };
     let judged = judged_rows(&c, a.round, steps)?;
+    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
+    // Saved before anything is printed: a reader that stops early (`| head`) loses no file.
+    let path = save_review_list(&c.root, a.round, steps, &list)
+        .map_err(|e| CliError::invalid(e.to_string()))?;
     if !judged.is_empty() {
-        println!(
+        say!(
             "{} step(s) of round {} already judged in the ledgers: the list avoids their ground",
             judged.len(),
             a.round
         );
     }
-    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
     print_list(steps, &list);
-    let path = save_review_list(&c.root, a.round, steps, &list)
-        .map_err(|e| CliError::invalid(e.to_string()))?;
-    println!("wrote {}", path.display());
+    say!("wrote {}", path.display());
     Ok(())
 }
 
 /// Rows of the round with a standing verdict in any annotator's ledger, each once.
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>, CliError> {
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::invalid(e.to_string()))?;
+    let ledgers = tally_campaign(c)?.ledgers;
     super::correct::warn_skipped_ledgers(&c.root);
-    let mut rows: Vec<usize> = ledgers
-        .iter()
-        .flat_map(|l| judgements(steps, round, &l.records))
-        .map(|j| j.row)
-        .collect();
-    rows.sort_unstable();
-    rows.dedup();
-    Ok(rows)
+    Ok(countersteer::workflow::judged_rows(
+        steps, round, &ledgers, None,
+    ))
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {
-    println!(
+    say!(
         "review list: {} step(s) chosen from {} candidate(s) ({} in the diversity pool); covering radius {:.3}",
         list.entries.len(),
         list.candidates,
         list.pool,
         list.covering_radius
     );
-    println!(
+    say!(
         "{:>4}  {:<24} {:>7}  {:>8} {:>9} {:>7}  reasons",
-        "#", "episode", "t", "novelty", "p-value", "gap"
+        "#",
+        "episode",
+        "t",
+        "novelty",
+        "p-value",
+        "gap"
     );
     for (i, e) in list.entries.iter().enumerate() {
         let reasons: Vec<&str> = e.reasons.iter().map(|r| r.as_str()).collect();
-        println!(
+        say!(
             "{:>4}  {:<24} {:>7}  {:>8.3} {:>9.4} {:>7.3}  {}",
             i + 1,
             steps.episodes[e.episode].name,

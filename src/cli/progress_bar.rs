@@ -7,7 +7,7 @@ use std::time::Duration;
 
 use indicatif::{ProgressBar, ProgressStyle};
 
-use crate::progress::Progress;
+use countersteer::progress::Progress;
 
 /// Draws `progress` on stderr until dropped. Hidden when stderr is not a terminal.
 pub struct Bar {

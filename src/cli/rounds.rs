@@ -7,8 +7,8 @@ use clap::Args;
 use super::CliError;
 use super::progress_bar::Bar;
 use super::score::load;
-use crate::progress::Progress;
-use crate::trend::{NOVELTY_QUANTILES, RoundTrend, campaign_trend};
+use countersteer::progress::Progress;
+use countersteer::trend::{NOVELTY_QUANTILES, RoundTrend, campaign_trend};
 
 /// Arguments of `rounds`.
 #[derive(Debug, Args)]
@@ -29,12 +29,12 @@ pub fn run(a: RoundsArgs) -> Result<(), CliError> {
     let progress = Progress::new();
     let trend = {
         let _bar = Bar::follow(&progress);
-        campaign_trend(&c, a.rescore, &progress).map_err(|e| CliError::invalid(e.to_string()))?
+        campaign_trend(&c, a.rescore, &progress)?
     };
     if a.json {
         let text =
             serde_json::to_string_pretty(&trend).map_err(|e| CliError::invalid(e.to_string()))?;
-        println!("{text}");
+        say!("{text}");
         return Ok(());
     }
     print_table(&trend);
@@ -46,7 +46,7 @@ fn print_table(trend: &[RoundTrend]) {
         .iter()
         .map(|q| format!("nov q{:.0}", q * 100.0))
         .collect();
-    println!(
+    say!(
         "{:>5} {:>8} {:>8} {:>8} {:>10} {:>10} {:>9} {:>9} {:>9} {:>9} {:>7}",
         "round",
         "episodes",
@@ -65,7 +65,7 @@ fn print_table(trend: &[RoundTrend]) {
             .failures
             .map_or("-".to_string(), |f| format!("{:.2}", r.per_episode(f)));
         let nq = |i: usize| r.novelty_quantiles.get(i).copied().unwrap_or(f32::NAN);
-        println!(
+        say!(
             "{:>5} {:>8} {:>8} {:>7.1}% {:>10.2} {:>10.2} {:>9} {:>9.3} {:>9.3} {:>9.3} {:>7}",
             r.round,
             r.episodes,
@@ -80,5 +80,5 @@ fn print_table(trend: &[RoundTrend]) {
             r.labels
         );
     }
-    println!("(labels: standing verdicts in the ledgers on each round's steps)");
+    say!("(labels: standing verdicts in the ledgers on each round's steps)");
 }

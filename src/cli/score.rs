@@ -5,12 +5,14 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 
 use super::{CliError, campaign_dir, progress_bar::Bar};
-use crate::campaign::{Campaign, LoadOptions, load_campaign};
-use crate::novelty::scale::ScaleOrigin;
-use crate::novelty::store::save_scores;
-use crate::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
-use crate::progress::Progress;
-use crate::review::{ExcursionSettings, excursions};
+use countersteer::campaign::{Campaign, LoadOptions, load_campaign};
+use countersteer::novelty::explain::{describe, flagged_shares, top_features};
+use countersteer::novelty::scale::ScaleOrigin;
+use countersteer::novelty::store::{ScoresKey, save_scores};
+use countersteer::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
+use countersteer::progress::Progress;
+use countersteer::review::episode_stats;
+use countersteer::review::{ExcursionSettings, excursions};
 
 /// Arguments of `score`.
 #[derive(Debug, Args)]
@@ -51,6 +53,9 @@ pub fn build_and_score(c: &Campaign, round: u32) -> Result<(NoveltyModel, RoundS
     let _bar = Bar::follow(&progress);
     let err = |e: NoveltyError| CliError::invalid(e.to_string());
     let model = build_model(c, &progress).map_err(err)?;
+    for w in model.warnings() {
+        tell!("warning: {w}");
+    }
     let scores = score_round(&model, c, &r.steps, &progress).map_err(err)?;
     Ok((model, scores))
 }
@@ -63,47 +68,47 @@ pub fn run(a: ScoreArgs) -> Result<(), CliError> {
         .round(a.round)
         .ok_or_else(|| CliError::usage("round vanished"))?
         .steps;
-    let path = save_scores(&c.root, a.round, steps, &scores)
+    let path = save_scores(&c.root, a.round, steps, &scores, &ScoresKey::of(&c, steps))
         .map_err(|e| CliError::invalid(e.to_string()))?;
     print_summary(&c, &model, steps, &scores, a.worst);
-    println!("wrote {}", path.display());
+    say!("wrote {}", path.display());
     Ok(())
 }
 
 fn print_summary(
     c: &Campaign,
     model: &NoveltyModel,
-    steps: &crate::campaign::StepTable,
+    steps: &countersteer::campaign::StepTable,
     s: &RoundScores,
     worst: usize,
 ) {
     let n = s.len();
     let flagged = s.flagged_count();
     let split = model.split();
-    println!(
+    say!(
         "round scored against {} demonstration states ({})",
         c.demonstrations.len(),
         model.index().path()
     );
-    println!(
+    say!(
         "  calibration: {} held-out episodes, {} states; k = {}, alpha = {}",
         split.calibration.len(),
         model.conformal().len(),
         model.k(),
         model.alpha()
     );
-    println!(
+    say!(
         "  flag threshold: novelty > {:.4} (scaled units) past the episode's first {} steps",
         s.threshold,
         s.phase_start.last().copied().unwrap_or(0)
     );
     print_phases(model, steps, s);
-    println!(
+    say!(
         "  steps: {n}, flagged: {flagged} ({:.1}%)",
         100.0 * flagged as f64 / n.max(1) as f64
     );
     let ex = excursions(steps, s, &ExcursionSettings::default());
-    println!(
+    say!(
         "  excursions: {} in {} of {} episodes",
         ex.len(),
         count_episodes(&ex),
@@ -116,7 +121,7 @@ fn print_summary(
 
 /// Prints each calibration phase: its threshold, calibration scores and this round's flagged
 /// share, beside the share the pooled calibration (all phases together) would flag.
-fn print_phases(model: &NoveltyModel, steps: &crate::campaign::StepTable, s: &RoundScores) {
+fn print_phases(model: &NoveltyModel, steps: &countersteer::campaign::StepTable, s: &RoundScores) {
     let phased = model.phased();
     let p = phased.parts().len();
     let (mut n, mut own, mut pooled) = (vec![0usize; p], vec![0usize; p], vec![0usize; p]);
@@ -126,7 +131,7 @@ fn print_phases(model: &NoveltyModel, steps: &crate::campaign::StepTable, s: &Ro
         own[i] += usize::from(s.flagged[row]);
         pooled[i] += usize::from(model.conformal().flagged(s.novelty[row]));
     }
-    println!(
+    say!(
         "  calibration phases (steps from the episode's start; Mondrian conformal); the pooled calibration's threshold is {:.4}:",
         model.conformal().threshold()
     );
@@ -136,7 +141,7 @@ fn print_phases(model: &NoveltyModel, steps: &crate::campaign::StepTable, s: &Ro
             .get(i + 1)
             .map_or("end".to_string(), |e| e.to_string());
         let pct = |c: usize| 100.0 * c as f64 / n[i].max(1) as f64;
-        println!(
+        say!(
             "    [{:>5}, {:>5}) {:>6} calibration scores, threshold {:>8.4}; {:>7} steps, {:>5.1}% flagged (pooled calibration {:.1}%)",
             starts[i],
             end,
@@ -150,11 +155,11 @@ fn print_phases(model: &NoveltyModel, steps: &crate::campaign::StepTable, s: &Ro
 }
 
 /// Prints every feature's novelty scale and where it came from.
-pub fn print_scales(spec: &crate::campaign::Spec, scale: &[f32], origin: &[ScaleOrigin]) {
-    println!("  novelty scales (each feature is divided by its scale):");
+pub fn print_scales(spec: &countersteer::campaign::Spec, scale: &[f32], origin: &[ScaleOrigin]) {
+    say!("  novelty scales (each feature is divided by its scale):");
     for (j, (s, o)) in scale.iter().zip(origin).enumerate() {
         let f = spec.features.get(j);
-        println!(
+        say!(
             "    {:<24} {:>12.5} {:<6} from {}",
             f.map_or("?", |f| f.name.as_str()),
             s,
@@ -164,57 +169,37 @@ pub fn print_scales(spec: &crate::campaign::Spec, scale: &[f32], origin: &[Scale
     }
 }
 
-fn count_episodes(ex: &[crate::review::Excursion]) -> usize {
+fn count_episodes(ex: &[countersteer::review::Excursion]) -> usize {
     let mut e: Vec<usize> = ex.iter().map(|x| x.episode).collect();
     e.dedup();
     e.len()
 }
 
 fn print_features(c: &Campaign, s: &RoundScores) {
-    let d = s.state_dim;
-    let mut total = vec![0.0f64; d];
-    for row in (0..s.len()).filter(|&r| s.flagged[r]) {
-        for (t, v) in total.iter_mut().zip(s.contribution(row)) {
-            *t += f64::from(*v);
-        }
-    }
-    let sum: f64 = total.iter().sum();
-    if sum <= 0.0 {
+    let Some(shares) = flagged_shares(s) else {
         return;
-    }
-    let mut order: Vec<usize> = (0..d).collect();
-    order.sort_by(|&a, &b| total[b].total_cmp(&total[a]));
-    let top: Vec<String> = order
-        .iter()
-        .take(3)
-        .map(|&j| {
-            format!(
-                "{} {:.0}%",
-                c.spec().features[j].name,
-                100.0 * total[j] / sum
-            )
-        })
-        .collect();
-    println!(
+    };
+    let names: Vec<&str> = c.spec().features.iter().map(|f| f.name.as_str()).collect();
+    say!(
         "  features that make flagged steps novel: {}",
-        top.join(", ")
+        describe(&names, &top_features(&shares, 3, 0.0))
     );
 }
 
 fn print_worst(
-    steps: &crate::campaign::StepTable,
+    steps: &countersteer::campaign::StepTable,
     s: &RoundScores,
-    ex: &[crate::review::Excursion],
+    ex: &[countersteer::review::Excursion],
     worst: usize,
 ) {
-    let mut eps: Vec<(usize, usize, f32)> = steps
-        .episodes
-        .iter()
-        .enumerate()
-        .map(|(i, e)| {
-            let f = e.rows().filter(|&r| s.flagged[r]).count();
-            let m = e.rows().map(|r| s.novelty[r]).fold(0.0, f32::max);
-            (i, f, m)
+    let mut eps: Vec<(usize, usize, f32)> = episode_stats(steps, Some(s))
+        .into_iter()
+        .map(|e| {
+            (
+                e.episode,
+                e.flagged.unwrap_or(0),
+                e.peak_novelty.unwrap_or(0.0),
+            )
         })
         .filter(|x| x.1 > 0)
         .collect();
@@ -222,16 +207,17 @@ fn print_worst(
     if eps.is_empty() {
         return;
     }
-    println!("  episodes with the most flagged steps:");
+    say!("  episodes with the most flagged steps:");
     for (i, f, m) in eps.into_iter().take(worst) {
         let e = &steps.episodes[i];
         let first = ex.iter().find(|x| x.episode == i).map(|x| steps.t[x.onset]);
         let onset = first.map_or("no excursion".to_string(), |t| {
             format!("first excursion at t = {t}")
         });
-        println!(
+        say!(
             "    {:<24} {f:>6} of {:>6} flagged, max novelty {m:.3}, {onset}",
-            e.name, e.len
+            e.name,
+            e.len
         );
     }
 }

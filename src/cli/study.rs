@@ -5,8 +5,8 @@ use std::path::PathBuf;
 use clap::Args;
 
 use super::{CliError, progress_bar::Bar};
-use crate::progress::Progress;
-use crate::study::{
+use countersteer::progress::Progress;
+use countersteer::study::{
     LearnerKind, ResultRow, Strategy, StudyConfig, output_dir, run_study, write_csv, write_plot,
 };
 
@@ -38,11 +38,11 @@ pub struct StudyArgs {
     pub learner: String,
     /// Steering noise injected while the expert drives demonstrations (rad); the labels
     /// stay the expert's clean commands.
-    #[arg(long, default_value_t = crate::sim::DemoConfig::default().demo_steer_noise)]
+    #[arg(long, default_value_t = countersteer::sim::DemoConfig::default().demo_steer_noise)]
     pub demo_noise: f64,
     /// Steps before a failed episode's end (the rover left the lane) that the review list
     /// may choose; 0 leaves them out.
-    #[arg(long, default_value_t = crate::review::PlanSettings::default().before_failure)]
+    #[arg(long, default_value_t = countersteer::review::PlanSettings::default().before_failure)]
     pub before_failure: usize,
 }
 
@@ -83,16 +83,16 @@ pub fn run(a: StudyArgs) -> Result<(), CliError> {
     };
     print_table(&rows);
     let csv = out.join("results.csv");
-    crate::durable::write_file(&csv, |w| write_csv(&rows, w))
+    countersteer::durable::write_file(&csv, |w| write_csv(&rows, w))
         .map_err(|e| CliError::usage(format!("{}: {e}", csv.display())))?;
     let png = out.join("departures.png");
     write_plot(&rows, &png).map_err(|e| CliError::usage(format!("{}: {e}", png.display())))?;
-    println!("wrote {} and {}", csv.display(), png.display());
+    say!("wrote {} and {}", csv.display(), png.display());
     Ok(())
 }
 
 fn print_table(rows: &[ResultRow]) {
-    println!(
+    say!(
         "{:<12} {:>5} {:>7}  {:>22}  {:>22}  {:>22}",
         "strategy",
         "round",
@@ -104,7 +104,7 @@ fn print_table(rows: &[ResultRow]) {
     for s in Strategy::ALL {
         for r in rows.iter().filter(|r| r.strategy == s) {
             let (d, l, c) = (r.departure, r.lateral, r.cost);
-            println!(
+            say!(
                 "{:<12} {:>5} {:>7}  {:>6.3} [{:.3}, {:.3}]  {:>6.3} [{:.3}, {:.3}]  {:>6.2} [{:.2}, {:.2}]",
                 s.name(),
                 r.round,

@@ -6,9 +6,8 @@ use clap::Args;
 
 use super::CliError;
 use super::correct::load;
-use crate::campaign::Spec;
-use crate::consensus::{ChannelAgreement, Judged, StepConsensus, Tally, tally};
-use crate::ledger::read_ledgers;
+use countersteer::campaign::Spec;
+use countersteer::consensus::{ChannelAgreement, Judged, StepConsensus, Tally};
 
 /// Arguments of `tally`.
 #[derive(Debug, Args)]
@@ -43,7 +42,7 @@ fn percent(part: usize, whole: usize) -> f64 {
 
 fn print_rounds(t: &Tally) {
     for r in &t.rounds {
-        println!(
+        say!(
             "round {}: {} steps, {} judged ({:.1}%), {} with a consensus action, {} by two or more annotators",
             r.round,
             r.steps,
@@ -52,9 +51,11 @@ fn print_rounds(t: &Tally) {
             r.with_action,
             r.multi
         );
-        println!(
+        say!(
             "  verdicts: {} action, {} skip, {} unrecoverable",
-            r.action_votes, r.skip_votes, r.unrecoverable_votes
+            r.action_votes,
+            r.skip_votes,
+            r.unrecoverable_votes
         );
     }
 }
@@ -94,50 +95,56 @@ fn step_line(spec: &Spec, s: &StepConsensus) -> String {
 
 fn print_set_apart(t: &Tally) {
     for m in &t.mismatches {
-        println!(
+        say!(
             "not applied: {} #{} (round {} `{}` t {}): the step's data changed since (fingerprint {} in the ledger, {} now)",
-            m.annotator, m.seq, m.round, m.episode, m.t, m.recorded, m.current
+            m.annotator,
+            m.seq,
+            m.round,
+            m.episode,
+            m.t,
+            m.recorded,
+            m.current
         );
     }
     for u in &t.unapplied {
-        println!("not applied: {} #{}: {}", u.annotator, u.seq, u.reason);
+        say!("not applied: {} #{}: {}", u.annotator, u.seq, u.reason);
     }
     for p in &t.ledger_problems {
-        println!("ledger problem: {p}");
+        say!("ledger problem: {p}");
     }
 }
 
 /// Runs `tally`.
 pub fn run(a: TallyArgs) -> Result<(), CliError> {
     let c = load(&a.dir)?;
-    let ledgers = read_ledgers(&c.root).map_err(|e| CliError::usage(e.to_string()))?;
+    let countersteer::workflow::Tallied { ledgers, tally: t } =
+        countersteer::workflow::tally_campaign(&c)?;
     super::correct::warn_skipped_ledgers(&c.root);
-    let t = tally(&c, &ledgers);
     let who: Vec<String> = t
         .ledgers
         .iter()
         .map(|l| format!("{} ({} records)", l.annotator, l.records))
         .collect();
-    println!(
+    say!(
         "campaign `{}`: {} annotator(s): {}",
         c.file.name,
         who.len(),
         who.join(", ")
     );
     print_rounds(&t);
-    println!("agreement (Krippendorff's alpha over steps with two or more verdicts):");
+    say!("agreement (Krippendorff's alpha over steps with two or more verdicts):");
     for ch in t.channels.iter().chain([&t.verdicts]) {
-        println!("{}", alpha_line(ch));
+        say!("{}", alpha_line(ch));
     }
     if a.steps {
-        println!("judged steps (annotator=verdict -> consensus):");
+        say!("judged steps (annotator=verdict -> consensus):");
         for s in &t.steps {
-            println!("{}", step_line(c.spec(), s));
+            say!("{}", step_line(c.spec(), s));
         }
     }
     print_set_apart(&t);
     for l in ledgers.iter().filter(|l| l.incomplete_tail > 0) {
-        println!(
+        say!(
             "note: {} ends in {} bytes of an unfinished line (being written now, or torn by a crash; the next `correct` by {} sets it aside)",
             l.path.display(),
             l.incomplete_tail,

@@ -1,10 +1,10 @@
 //! From ledgers to the verdicts that count: retractions applied, the latest record of an
 //! annotator for a step wins, and records that no longer fit the campaign are set apart.
 
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::BTreeMap;
 
 use crate::campaign::Campaign;
-use crate::ledger::{AnnotatorLedger, Correction, Entry, Record, Verdict, fingerprint};
+use crate::ledger::{AnnotatorLedger, Verdict, fingerprint, fingerprint_matches, standing};
 
 /// A verdict in the campaign's terms.
 #[derive(Debug, Clone, PartialEq)]
@@ -68,28 +68,6 @@ pub(crate) struct Resolved {
     pub unapplied: Vec<Unapplied>,
 }
 
-/// The latest non-retracted correction per step of one ledger, in ledger order.
-fn standing(records: &[Record]) -> Vec<(u64, &Correction)> {
-    let retracted: HashSet<u64> = records
-        .iter()
-        .filter_map(|r| match r.entry {
-            Entry::Retraction(x) => Some(x.retracts),
-            Entry::Correction(_) => None,
-        })
-        .collect();
-    let mut latest: HashMap<(u32, &str, i64), (u64, &Correction)> = HashMap::new();
-    for r in records {
-        if let Some(c) = r.correction()
-            && !retracted.contains(&r.seq)
-        {
-            latest.insert((c.round, c.episode.as_str(), c.t), (r.seq, c));
-        }
-    }
-    let mut out: Vec<_> = latest.into_values().collect();
-    out.sort_by_key(|(seq, _)| *seq);
-    out
-}
-
 pub(crate) fn resolve(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Resolved {
     let mut out = Resolved::default();
     for l in ledgers {
@@ -112,8 +90,8 @@ pub(crate) fn resolve(campaign: &Campaign, ledgers: &[AnnotatorLedger]) -> Resol
                 out.unapplied.push(unapplied(reason));
                 continue;
             };
-            let current = fingerprint(&round.steps, row);
-            if current != c.fingerprint {
+            if !fingerprint_matches(&round.steps, row, &c.fingerprint) {
+                let current = fingerprint(&round.steps, row);
                 out.mismatches.push(Mismatch {
                     annotator: l.annotator.clone(),
                     seq,

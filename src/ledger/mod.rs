@@ -13,21 +13,29 @@
 //!   are copied to `ledgers/<annotator>.jsonl.torn-<n>` and fsync'd, only then is the ledger cut
 //!   back to its last whole line; the [`OpenReport`] says so. Intact records are not touched.
 
+pub mod batch;
+mod batch_file;
 mod error;
-mod fingerprint;
+pub mod fingerprint;
 mod lock;
 mod read;
 mod record;
+mod standing;
 mod store;
 mod time;
 
+pub use batch::{Batch, BatchError, BatchItem, BatchLine, BatchReport, UnfinishedBatch};
+pub use batch_file::{BATCH_FIELDS, MAX_BATCH_BYTES, read_batch};
 pub use error::{LedgerError, LedgerProblem};
-pub use fingerprint::fingerprint;
+pub use fingerprint::{fingerprint, fingerprint_matches, fingerprint_v1};
 pub use read::{
     AnnotatorLedger, FileStamp, SkippedEntry, ledger_path, ledger_stamps, parse_ledger,
     read_ledger, read_ledgers, sha256_hex, skipped_entries,
 };
 pub use record::{ActionValue, Correction, Entry, Record, Retraction, Verdict};
+#[cfg(test)]
+pub(crate) use standing::kit as standing_kit;
+pub use standing::{last_standing, retracted, standing, standing_of};
 pub use store::{Ledger, OpenReport, SetAside};
 pub use time::utc_timestamp;
 

@@ -278,18 +278,31 @@ impl std::fmt::Display for SkippedEntry {
     }
 }
 
-/// Why an entry of `ledgers/` is not a ledger; `None` for a ledger. The writer's own side
-/// files (`<annotator>.lock`, `<annotator>.jsonl.torn-<n>`) are not ledgers and need no word.
+/// True for the writers' own side files in `ledgers/`: `<annotator>.lock`,
+/// `<annotator>.jsonl.torn-<n>`, `<annotator>.batch.json`,
+/// `<annotator>.batch-unfinished-<n>.json`, and temporary files of [`crate::durable`].
+fn is_side_file(name: &str) -> bool {
+    let numbered = |n: &str| !n.is_empty() && n.bytes().all(|b| b.is_ascii_digit());
+    let annotator = |a: &str| check_annotator(a).is_ok();
+    name.strip_suffix(".lock").is_some_and(annotator)
+        || name.strip_suffix(".batch.json").is_some_and(annotator)
+        || name
+            .rsplit_once(".jsonl.torn-")
+            .is_some_and(|(a, n)| annotator(a) && numbered(n))
+        || name
+            .strip_suffix(".json")
+            .and_then(|s| s.rsplit_once(".batch-unfinished-"))
+            .is_some_and(|(a, n)| annotator(a) && numbered(n))
+        || crate::durable::is_temp_name(name)
+}
+
+/// Why an entry of `ledgers/` is not a ledger; `None` for a ledger. The writers' own side
+/// files ([`is_side_file`]) are not ledgers and need no word.
 fn skip_reason(entry: &std::fs::DirEntry) -> Option<Option<String>> {
     let name = entry.file_name().to_string_lossy().into_owned();
     let kind = entry.file_type().ok();
     let Some(stem) = name.strip_suffix(".jsonl") else {
-        let own = name
-            .strip_suffix(".lock")
-            .is_some_and(|a| check_annotator(a).is_ok())
-            || name.rsplit_once(".jsonl.torn-").is_some_and(|(a, n)| {
-                check_annotator(a).is_ok() && n.bytes().all(|b| b.is_ascii_digit())
-            });
+        let own = is_side_file(&name);
         return Some((!own).then(|| "its name does not end in `.jsonl`".to_string()));
     };
     if let Err(e) = check_annotator(stem) {
@@ -342,4 +355,30 @@ pub fn ledger_stamps(campaign_root: &Path) -> Vec<(PathBuf, FileStamp)> {
         .collect();
     out.sort_by(|a, b| a.0.cmp(&b.0));
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_writers_side_files_are_known_and_strangers_are_not() {
+        for own in [
+            "ana.lock",
+            "ana.jsonl.torn-2",
+            "ana.batch.json",
+            "ana.batch-unfinished-3.json",
+            ".ana.batch.json.partial-12-0-0123abcd",
+        ] {
+            assert!(is_side_file(own), "{own}");
+        }
+        for stranger in [
+            "notes.txt",
+            "a b.lock",
+            "ana.jsonl.torn-",
+            "ana.batch-unfinished-x.json",
+        ] {
+            assert!(!is_side_file(stranger), "{stranger}");
+        }
+    }
 }

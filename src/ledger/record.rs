@@ -10,7 +10,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use crate::campaign::{ChannelKind, Spec};
+use crate::campaign::{ActionChannel, ChannelKind, Spec};
 
 /// One value of a recovery action: a number for a continuous channel, a choice name for a
 /// discrete one.
@@ -81,28 +81,35 @@ fn action_vector(spec: &Spec, values: &[ActionValue]) -> Result<Vec<f32>, String
     spec.actions
         .iter()
         .zip(values)
-        .map(|(c, v)| match (&c.kind, v) {
-            (ChannelKind::Continuous { low, high }, ActionValue::Number(x)) => {
-                if x.is_finite() && *x >= *low && *x <= *high {
-                    Ok(*x as f32)
-                } else {
-                    Err(format!("`{}`: {x} is outside {low}..{high}", c.name))
-                }
-            }
-            (ChannelKind::Discrete { choices }, ActionValue::Choice(s)) => choices
-                .iter()
-                .position(|n| n == s)
-                .map(|i| i as f32)
-                .ok_or_else(|| format!("`{}`: `{s}` is not one of {choices:?}", c.name)),
-            (ChannelKind::Continuous { .. }, ActionValue::Choice(s)) => {
-                Err(format!("`{}`: expected a number, got `{s}`", c.name))
-            }
-            (ChannelKind::Discrete { choices }, ActionValue::Number(x)) => Err(format!(
-                "`{}`: expected one of {choices:?}, got {x}",
-                c.name
-            )),
-        })
+        .map(|(c, v)| channel_value(c, v))
         .collect()
+}
+
+/// One action value checked against its channel: a finite number within bounds for a
+/// continuous channel, a declared choice name for a discrete one (stored as its index).
+/// The error names the channel.
+pub(crate) fn channel_value(c: &ActionChannel, v: &ActionValue) -> Result<f32, String> {
+    match (&c.kind, v) {
+        (ChannelKind::Continuous { low, high }, ActionValue::Number(x)) => {
+            if x.is_finite() && *x >= *low && *x <= *high {
+                Ok(*x as f32)
+            } else {
+                Err(format!("`{}`: {x} is outside {low}..{high}", c.name))
+            }
+        }
+        (ChannelKind::Discrete { choices }, ActionValue::Choice(s)) => choices
+            .iter()
+            .position(|n| n == s)
+            .map(|i| i as f32)
+            .ok_or_else(|| format!("`{}`: `{s}` is not one of {choices:?}", c.name)),
+        (ChannelKind::Continuous { .. }, ActionValue::Choice(s)) => {
+            Err(format!("`{}`: expected a number, got `{s}`", c.name))
+        }
+        (ChannelKind::Discrete { choices }, ActionValue::Number(x)) => Err(format!(
+            "`{}`: expected one of {choices:?}, got {x}",
+            c.name
+        )),
+    }
 }
 
 /// A correction: the verdict on one step.

@@ -131,6 +131,16 @@ impl Ledger {
         self.write_entries(entries, &time)
     }
 
+    /// Appends corrections and retractions with one write and one fsync (the bulk path of
+    /// [`super::batch`], which checks the retractions first). Either all are acknowledged
+    /// or, on an error, none is kept on disk.
+    pub(crate) fn append_entries(
+        &mut self,
+        entries: Vec<Entry>,
+    ) -> Result<Vec<Record>, LedgerError> {
+        self.write_entries(entries, &utc_timestamp())
+    }
+
     /// Retracts an earlier, not yet retracted correction of this ledger (undo).
     pub fn retract(&mut self, seq: u64) -> Result<Record, LedgerError> {
         let is_correction = self
@@ -149,9 +159,7 @@ impl Ledger {
                 seq,
             });
         }
-        let r = self.write(Entry::Retraction(Retraction { retracts: seq }))?;
-        self.retracted.insert(seq);
-        Ok(r)
+        self.write(Entry::Retraction(Retraction { retracts: seq }))
     }
 
     fn write(&mut self, entry: Entry) -> Result<Record, LedgerError> {
@@ -163,8 +171,9 @@ impl Ledger {
     }
 
     /// The one append path: numbers the entries from the next sequence number on (each the
-    /// previous + 1, checked), writes them with one write and one fsync, and keeps them.
-    fn write_entries(
+    /// previous + 1, checked), writes them with one write and one fsync, and keeps them
+    /// (retractions mark what they retract). The caller checks what the entries say.
+    pub(crate) fn write_entries(
         &mut self,
         entries: Vec<Entry>,
         time: &str,
@@ -186,6 +195,11 @@ impl Ledger {
         self.write_whole(&bytes)?;
         self.len += bytes.len() as u64;
         self.next_seq = next;
+        for r in &records {
+            if let Entry::Retraction(x) = &r.entry {
+                self.retracted.insert(x.retracts);
+            }
+        }
         self.records.extend(records.iter().cloned());
         Ok(records)
     }
@@ -255,11 +269,12 @@ impl Ledger {
     /// This annotator's standing record for a step: the latest correction of it that is not
     /// retracted.
     pub fn standing(&self, round: u32, episode: &str, t: i64) -> Option<&Record> {
-        self.records.iter().rev().find(|r| {
-            r.correction()
-                .is_some_and(|c| c.round == round && c.episode == episode && c.t == t)
-                && !self.retracted.contains(&r.seq)
-        })
+        super::standing::standing_of(&self.records, round, episode, t)
+    }
+
+    /// The correction an undo takes back (see [`super::last_standing`]).
+    pub fn last_standing(&self) -> Option<(u64, &super::Correction)> {
+        super::standing::last_standing(&self.records)
     }
 
     /// True when the correction with this sequence number was retracted.

@@ -7,6 +7,12 @@
 //! are exchangeable, `P(p(s) <= alpha) <= alpha`: at most an `alpha` share of fresh
 //! expert-like states is flagged.
 
+/// The smallest flag level `n` calibration scores can resolve: the smallest p-value,
+/// `1 / (n + 1)`. Below it nothing can ever be flagged.
+pub fn smallest_alpha(n: usize) -> f64 {
+    1.0 / (n + 1) as f64
+}
+
 /// Sorted calibration novelties and the flag level.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Conformal {
@@ -106,6 +112,16 @@ mod tests {
         // ceil(20 * 0.95) = 19: the 19th smallest is 19, so scores above 19 are flagged.
         assert_eq!(c.threshold(), 19.0);
         assert!(c.flagged(19.01) && !c.flagged(19.0));
+    }
+
+    #[test]
+    fn the_smallest_alpha_is_the_smallest_p_value() {
+        // By hand: 1197 calibration scores give p-values k/1198, the smallest 1/1198.
+        assert_eq!(smallest_alpha(1197), 1.0 / 1198.0);
+        let c = Conformal::new(vec![1.0; 1197], smallest_alpha(1197));
+        assert!(c.flagged(2.0) && c.threshold().is_finite());
+        let below = Conformal::new(vec![1.0; 1197], 0.0005);
+        assert_eq!(below.threshold(), f32::INFINITY);
     }
 
     #[test]

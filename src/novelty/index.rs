@@ -153,7 +153,7 @@ pub fn choose_path(
         return None;
     }
     let axes = principal_axes(states, dim, inv_scale, rows);
-    let m = components_for(&axes.values);
+    let m = components_for(&axes.values, axes.total);
     (tree_width(m + 1) < tree_width(dim)).then_some((axes, m))
 }
 

@@ -3,7 +3,8 @@
 //!
 //! Pipeline: per-feature [`scale`]s, an exact k-nearest-neighbour [`index`] over the scaled
 //! demonstration states (a kiddo k-d tree, or the [`subspace`] path for wide states), a
-//! split-[`conformal`] calibration on held-out demonstration episodes ([`model`]), and
+//! split-[`conformal`] calibration on held-out demonstration episodes ([`model`], kept as a file
+//! by [`saved`]), and
 //! per-step signals for a round ([`score`], [`signals`]), saved to the campaign by [`store`].
 //!
 //! The novelty of a state is its distance to the k-th nearest demonstration state in scaled
@@ -11,10 +12,14 @@
 //! detection with deep nearest neighbors").
 
 pub mod conformal;
+pub mod digest;
+pub mod eigen;
+pub mod explain;
 pub mod index;
 pub mod model;
 pub mod phase;
 pub mod query;
+pub mod saved;
 pub mod scale;
 pub mod score;
 pub mod signals;
@@ -46,6 +51,21 @@ pub enum NoveltyError {
         k: usize,
         /// States in the fit part.
         states: usize,
+    },
+    /// alpha is below the smallest p-value the calibration can give: nothing could be flagged.
+    #[error(
+        "campaign.json novelty.alpha: alpha = {alpha} is below what {n} calibration state(s) can resolve \
+         (the smallest p-value is 1/{n1}); the smallest reachable alpha is {smallest} \
+         (or add demonstration episodes)",
+        n1 = n + 1
+    )]
+    AlphaBelowFloor {
+        /// The campaign's alpha.
+        alpha: f64,
+        /// Calibration states.
+        n: usize,
+        /// The smallest reachable alpha, rounded up to four significant digits.
+        smallest: String,
     },
     /// A feature scale is not a positive number.
     #[error("spec.features: every scale must be a positive number")]

@@ -23,7 +23,7 @@
 //! states stays at most alpha (conservative rather than exact).
 
 use super::NoveltyError;
-use super::conformal::Conformal;
+use super::conformal::{Conformal, smallest_alpha};
 use super::index::{Hit, KnnIndex};
 use super::phase::{PhasedConformal, phase_starts};
 use super::query::seeded_knn;
@@ -118,6 +118,9 @@ pub fn build_model_from(
         return Err(NoveltyError::BadScale);
     }
     let split = split_episodes(demos)?;
+    let starts = calibration_phases(demos, &split, alpha);
+    let cal_rows = calibration_rows(demos, &split.calibration, &starts);
+    check_phases(alpha, &phase_counts(demos, &cal_rows, &starts))?;
     let fit_rows = rows_of(demos, &split.fit);
     if k == 0 || fit_rows.len() < k {
         return Err(NoveltyError::TooFewStates {
@@ -130,13 +133,6 @@ pub fn build_model_from(
     let fit =
         KnnIndex::build(&demos.states, d, &inv_scale, &fit_rows).map_err(NoveltyError::Index)?;
     progress.advance(1);
-    let lengths: Vec<usize> = split
-        .calibration
-        .iter()
-        .map(|&e| demos.episodes[e].len)
-        .collect();
-    let starts = phase_starts(&lengths, alpha);
-    let cal_rows = calibration_rows(demos, &split.calibration, &starts);
     let hits = seeded_knn(
         &fit,
         &inv_scale,
@@ -170,6 +166,76 @@ pub fn build_model_from(
     })
 }
 
+/// The calibration phases' starts for a split and alpha (see [`super::phase`]).
+fn calibration_phases(demos: &StepTable, split: &EpisodeSplit, alpha: f64) -> Vec<usize> {
+    let lengths: Vec<usize> = split
+        .calibration
+        .iter()
+        .map(|&e| demos.episodes[e].len)
+        .collect();
+    phase_starts(&lengths, alpha)
+}
+
+/// Calibration rows in each phase.
+fn phase_counts(demos: &StepTable, rows: &[usize], starts: &[usize]) -> Vec<usize> {
+    let mut n = vec![0; starts.len()];
+    for &r in rows {
+        let pos = demos.position(r);
+        n[starts.partition_point(|&s| s <= pos).saturating_sub(1)] += 1;
+    }
+    n
+}
+
+/// How many calibration states each calibration phase gets at `alpha` (see the module
+/// documentation): each phase is calibrated on its own, so the smallest reachable alpha is the
+/// smallest phase's.
+pub fn calibration_counts(demos: &StepTable, alpha: f64) -> Result<Vec<usize>, NoveltyError> {
+    let split = split_episodes(demos)?;
+    let starts = calibration_phases(demos, &split, alpha);
+    let rows = calibration_rows(demos, &split.calibration, &starts);
+    Ok(phase_counts(demos, &rows, &starts))
+}
+
+/// The calibration states of the smallest calibration phase at `alpha` (what
+/// [`check_alpha`] needs; see [`calibration_counts`]).
+pub fn calibration_count(demos: &StepTable, alpha: f64) -> Result<usize, NoveltyError> {
+    Ok(calibration_counts(demos, alpha)?
+        .into_iter()
+        .min()
+        .unwrap_or(0))
+}
+
+/// [`check_alpha`] for every phase's calibration count: the smallest phase decides.
+pub fn check_phases(alpha: f64, counts: &[usize]) -> Result<(), NoveltyError> {
+    check_alpha(alpha, counts.iter().copied().min().unwrap_or(0))
+}
+
+/// Refuses an `alpha` below what `n` calibration states can resolve
+/// ([`smallest_alpha`]), naming the smallest reachable alpha.
+pub fn check_alpha(alpha: f64, n: usize) -> Result<(), NoveltyError> {
+    let floor = smallest_alpha(n);
+    if alpha >= floor {
+        return Ok(());
+    }
+    // Rounded up at the fourth significant digit, so that the value shown is reachable.
+    let decimals = (3 - floor.log10().floor() as i32).max(0) as usize;
+    let up = (floor * 10f64.powi(decimals as i32)).ceil() / 10f64.powi(decimals as i32);
+    Err(NoveltyError::AlphaBelowFloor {
+        alpha,
+        n,
+        smallest: format!("{up:.decimals$}"),
+    })
+}
+
+/// True when every demonstration state is the same (no spread at all): every calibration
+/// novelty is then 0, and any state that differs at all is flagged.
+pub fn without_spread(demos: &StepTable) -> bool {
+    let d = demos.state_dim.max(1);
+    let mut rows = demos.states.chunks_exact(d);
+    let first = rows.next();
+    first.is_some_and(|f| rows.all(|r| r == f))
+}
+
 /// Distance (not squared) of the last hit of a sorted k-neighbour list.
 pub fn kth_distance(hits: &[Hit]) -> f32 {
     hits.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt())
@@ -198,6 +264,34 @@ fn calibration_rows(demos: &StepTable, episodes: &[usize], starts: &[usize]) -> 
 }
 
 impl NoveltyModel {
+    /// A model from its saved parts (the pooled and the per-phase calibration) and an index rebuilt over every demonstration row (see
+    /// [`super::saved`]): the same model [`build_model_from`] made, without calibrating again.
+    pub fn from_parts(
+        demos: &StepTable,
+        scale: Vec<f32>,
+        (conformal, phased): (Conformal, PhasedConformal),
+        k: usize,
+        split: EpisodeSplit,
+    ) -> Result<Self, NoveltyError> {
+        if scale.len() != demos.state_dim || scale.iter().any(|s| !(s.is_finite() && *s > 0.0)) {
+            return Err(NoveltyError::BadScale);
+        }
+        let inv_scale: Vec<f32> = scale.iter().map(|s| 1.0 / s).collect();
+        let all: Vec<u32> = (0..demos.len() as u32).collect();
+        let index = KnnIndex::build(&demos.states, demos.state_dim, &inv_scale, &all)
+            .map_err(NoveltyError::Index)?;
+        Ok(NoveltyModel {
+            origin: vec![ScaleOrigin::Spec; scale.len()],
+            scale,
+            inv_scale,
+            index,
+            conformal,
+            phased,
+            k,
+            split,
+        })
+    }
+
     /// Per-feature scales (novelty divides each feature by its scale).
     pub fn scale(&self) -> &[f32] {
         &self.scale
@@ -260,6 +354,22 @@ impl NoveltyModel {
         &self.split
     }
 
+    /// Warnings about the calibration, in words: the held-out demonstration states all lie
+    /// at novelty 0 (the demonstrations repeat one state), so the threshold is 0 and every
+    /// state that differs at all is flagged.
+    pub fn warnings(&self) -> Vec<String> {
+        let top = self.conformal.scores().last();
+        if top.is_some_and(|&s| s <= 0.0) {
+            return vec![format!(
+                "every held-out demonstration state has {} exact copies among the others \
+                 (the demonstrations show no spread): the flag threshold is 0 and every state \
+                 that differs at all is flagged",
+                self.k
+            )];
+        }
+        Vec::new()
+    }
+
     /// The index over all demonstrations.
     pub fn index(&self) -> &KnnIndex {
         &self.index
@@ -288,5 +398,24 @@ impl NoveltyModel {
         self.nearest(state, self.k)
             .last()
             .map_or(f32::INFINITY, |h| h.1)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_smallest_calibration_phase_decides_the_alpha_floor() {
+        // 605 scores pooled would resolve alpha 0.01 (1/606), but a phase of 5 scores resolves
+        // only 1/6 = 0.16667 (by hand), shown rounded up at the fourth digit as 0.1667.
+        assert!(check_alpha(0.01, 605).is_ok());
+        match check_phases(0.01, &[5, 600]) {
+            Err(NoveltyError::AlphaBelowFloor { n, smallest, .. }) => {
+                assert_eq!((n, smallest.as_str()), (5, "0.1667"));
+            }
+            other => panic!("{other:?}"),
+        }
+        assert!(check_phases(0.2, &[5, 600]).is_ok());
     }
 }

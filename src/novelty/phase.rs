@@ -86,6 +86,27 @@ impl PhasedConformal {
         PhasedConformal { starts, parts }
     }
 
+    /// Calibration from saved parts: phase starts (the first is taken as 0) and one
+    /// calibration per phase (missing ones are empty; extra ones dropped).
+    pub fn from_parts(starts: Vec<usize>, mut parts: Vec<Conformal>) -> Self {
+        let mut starts = starts;
+        if starts.first() != Some(&0) {
+            starts.insert(0, 0);
+            parts.insert(
+                0,
+                Conformal::new(Vec::new(), parts.first().map_or(1.0, Conformal::alpha)),
+            );
+        }
+        let alpha = parts.first().map_or(1.0, Conformal::alpha);
+        parts.resize_with(starts.len(), || Conformal::new(Vec::new(), alpha));
+        PhasedConformal { starts, parts }
+    }
+
+    /// Calibration scores in each phase.
+    pub fn counts(&self) -> Vec<usize> {
+        self.parts.iter().map(Conformal::len).collect()
+    }
+
     /// The first position of each phase.
     pub fn starts(&self) -> &[usize] {
         &self.starts

@@ -14,6 +14,16 @@
 //! to [`KnnIndex::knn_hinted`]: their own k-th exact distance is another upper bound, usually
 //! much tighter than the Lipschitz one. On W1 of the benchmark this cut seeded scoring from
 //! 1.69 s to 1.47 s (`bench --only w1parts`, medians of 3).
+//!
+//! **One answer whatever the bound and hints.** Neighbours at equal distances could come back
+//! in any order, and a tie at the k-th distance could let the bound or the hints decide which
+//! of the tied rows is kept; then a step's neighbours (and the consensus action made from
+//! them) would depend on where its chain started, and scoring a round in shards would not
+//! give the rows of scoring it whole. So each search asks for `k + 1` neighbours (the chain's
+//! bound follows the `(k + 1)`-th distance, which is 1-Lipschitz too): when the `(k + 1)`-th
+//! is strictly farther than the k-th, the k nearest are one set, put in order of
+//! (distance, row); on a tie at the k-th distance every tied row is fetched and the smallest
+//! rows win ([`canonical_knn`]).
 
 use rayon::prelude::*;
 
@@ -101,12 +111,49 @@ fn chain(
             }
             _ => f32::INFINITY,
         };
-        index.knn_hinted(&q, k, bound, &hints, &mut hits);
+        let dk = canonical_knn(index, &q, k, bound, &hints, &mut hits);
         slot[..hits.len()].copy_from_slice(&hits);
-        let dk = hits.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt());
         prev = Some((episode, row, dk));
         std::mem::swap(&mut q, &mut prev_q);
     }
+}
+
+/// The `k` nearest indexed points to the scaled query `q` in their one canonical form: the
+/// `k` smallest by (squared distance, row), whatever `bound` and `hints` (see the module
+/// documentation). `bound` must be at least the `(k + 1)`-th neighbour distance (or
+/// infinite). Returns the `(k + 1)`-th neighbour distance (not squared; the k-th when the
+/// index holds no more than `k` points), the bound for the next step of a chain.
+pub fn canonical_knn(
+    index: &KnnIndex,
+    q: &[f32],
+    k: usize,
+    bound: f32,
+    hints: &[u32],
+    out: &mut Vec<Hit>,
+) -> f32 {
+    let k = k.min(index.len());
+    index.knn_hinted(q, (k + 1).min(index.len()), bound, hints, out);
+    let next = out.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt());
+    if k > 0 && out.len() > k && out[k].1 <= out[k - 1].1 {
+        gather_ties(index, q, out[k - 1].1, out);
+    }
+    out.sort_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+    out.truncate(k);
+    next
+}
+
+/// Every indexed point within squared distance `dk2` of `q` (unbounded searches of growing
+/// size until one reaches past `dk2` or holds every point).
+fn gather_ties(index: &KnnIndex, q: &[f32], dk2: f32, out: &mut Vec<Hit>) {
+    let mut want = 2 * out.len();
+    loop {
+        index.knn(q, want.min(index.len()), f32::INFINITY, out);
+        if want >= index.len() || out.last().is_some_and(|h| h.1 > dk2) {
+            break;
+        }
+        want *= 2;
+    }
+    out.retain(|h| h.1 <= dk2);
 }
 
 /// Euclidean distance between two equally long vectors.

@@ -149,6 +149,19 @@ pub fn score_steps(
     steps: &StepTable,
     progress: &Progress,
 ) -> Result<RoundScores, NoveltyError> {
+    score_steps_from(model, demos, channels, (steps, 0), progress)
+}
+
+/// [`score_steps`] for a table whose first episode starts `lead` steps into its episode (a
+/// shard of a round cut inside an episode): positions in that episode, which choose the
+/// calibration phase, are counted from the episode's real start.
+pub fn score_steps_from(
+    model: &NoveltyModel,
+    demos: &StepTable,
+    channels: &[ActionChannel],
+    (steps, lead): (&StepTable, usize),
+    progress: &Progress,
+) -> Result<RoundScores, NoveltyError> {
     if steps.state_dim != demos.state_dim || steps.action_dim != demos.action_dim {
         return Err(NoveltyError::DimensionMismatch {
             expected: demos.state_dim,
@@ -172,6 +185,7 @@ pub fn score_steps(
         channels,
         steps,
         k,
+        lead,
     };
     let parts: Vec<RoundScores> = rows
         .par_chunks(4096)
@@ -190,6 +204,7 @@ struct Ctx<'a> {
     channels: &'a [ActionChannel],
     steps: &'a StepTable,
     k: usize,
+    lead: usize,
 }
 
 impl Ctx<'_> {
@@ -201,7 +216,12 @@ impl Ctx<'_> {
         for &row in rows {
             let h = &hits[row * self.k..(row + 1) * self.k];
             let novelty = h.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt());
-            let p = self.model.p_value(novelty, self.steps.position(row));
+            let lead = if self.steps.episode_of(row) == 0 {
+                self.lead
+            } else {
+                0
+            };
+            let p = self.model.p_value(novelty, self.steps.position(row) + lead);
             s.novelty.push(novelty);
             s.p_value.push(p as f32);
             s.flagged.push(p <= self.model.alpha());

@@ -23,22 +23,30 @@
 //! | `alpha` | float64 | (1,) | flag level |
 //! | `scale` | float32 | (D,) | per-feature scales of the novelty distance |
 //! | `scale_origin` | unicode | (D,) | where each scale came from: `spec`, `MAD`, `IQR`, `standard deviation`, `unit`, `binary`, `categorical` |
+//! | `model_fingerprint` | unicode | (1,) | the novelty model's inputs ([`digest::model_fingerprint`]) |
+//! | `data_fingerprint` | unicode | (1,) | the round's data ([`digest::data_fingerprint`]) |
+//! | `checksum` | unicode | (1,) | SHA-256 (16 hex digits) of both fingerprints and every array above |
 //!
 //! Scores are derived data: scoring again replaces the file through [`crate::durable`]
 //! (written under a temporary name unique to the writer, fsync'd, then renamed), so a reader
 //! never sees half a file and concurrent scorers never share a temporary file; the last
-//! rename wins. Nothing the experts entered lives here.
+//! rename wins. Nothing the experts entered lives here. Whether saved scores may stand in for
+//! scoring again is decided in one place, [`reusable_scores`]: only when both fingerprints
+//! match the campaign as it is now and the checksum (and every zip member's CRC-32) holds.
 
-use std::io::Write;
+use std::io::{Read, Seek, Write};
 use std::path::{Path, PathBuf};
 
 use crate::campaign::npz::NpzWriter;
 
+use sha2::{Digest, Sha256};
+
 use super::NoveltyError;
+use super::digest;
 use super::scale::ScaleOrigin;
 use super::score::RoundScores;
-use crate::campaign::StepTable;
 use crate::campaign::numpy::{Array, ArraySource, NpzSource, Values};
+use crate::campaign::{Campaign, StepTable};
 
 /// Folder of derived per-round files.
 pub const ANALYSIS_DIR: &str = "analysis";
@@ -69,17 +77,57 @@ pub fn real_round_dir(root: &Path, round: u32) -> Result<PathBuf, NoveltyError> 
     crate::durable::real_dir(root, &rel).map_err(|e| store_err(&root.join(&rel), e))
 }
 
-/// Saves scores of `steps` to `analysis/<round>/scores.npz` and returns the path.
+/// What saved scores must have been made from to be reused: the novelty model's inputs and
+/// the round's data, as fingerprints.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ScoresKey {
+    /// [`digest::model_fingerprint`] of the campaign.
+    pub model: String,
+    /// [`digest::data_fingerprint`] of the round's steps.
+    pub data: String,
+}
+
+impl ScoresKey {
+    /// The key of a round of a campaign as it is now.
+    pub fn of(c: &Campaign, steps: &StepTable) -> ScoresKey {
+        ScoresKey {
+            model: digest::model_fingerprint(c),
+            data: digest::data_fingerprint(steps),
+        }
+    }
+}
+
+/// Saves scores of `steps` to `analysis/<round>/scores.npz` with their key and checksum, and
+/// returns the path.
 pub fn save_scores(
     root: &Path,
     round: u32,
     steps: &StepTable,
     s: &RoundScores,
+    key: &ScoresKey,
 ) -> Result<PathBuf, NoveltyError> {
     let path = real_round_dir(root, round)?.join(SCORES_FILE);
-    crate::durable::write_file(&path, |w| write_npz(steps, s, w))
-        .map_err(|e| store_err(&path, e))?;
+    crate::durable::write_file(&path, |w| write_npz(steps, s, key, w)).map_err(|e| {
+        if is_full(&e) {
+            store_err(
+                &path,
+                "not saved: the disk is full (or a file size limit was reached); the scores \
+                 computed are lost, any earlier scores file is unchanged",
+            )
+        } else {
+            store_err(&path, e)
+        }
+    })?;
     Ok(path)
+}
+
+/// Whether a write failed for want of space: no space left (`ENOSPC`) or a file size limit
+/// (`EFBIG`, as `prlimit --fsize` gives).
+fn is_full(e: &std::io::Error) -> bool {
+    matches!(
+        e.kind(),
+        std::io::ErrorKind::StorageFull | std::io::ErrorKind::FileTooLarge
+    )
 }
 
 fn put<T: npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(
@@ -95,6 +143,7 @@ fn put<T: npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(
 pub fn write_npz<W: Write + std::io::Seek>(
     steps: &StepTable,
     s: &RoundScores,
+    key: &ScoresKey,
     w: W,
 ) -> std::io::Result<()> {
     let mut npz = NpzWriter::new(w);
@@ -128,15 +177,59 @@ pub fn write_npz<W: Write + std::io::Seek>(
     put(&mut npz, "alpha", &[1], &[s.alpha])?;
     put(&mut npz, "scale", &[s.state_dim as u64], &s.scale)?;
     npz.strings("scale_origin", s.scale_origin.iter().map(|o| o.label()))?;
+    npz.strings("model_fingerprint", std::iter::once(key.model.as_str()))?;
+    npz.strings("data_fingerprint", std::iter::once(key.data.as_str()))?;
+    let sum = checksum(&steps.t, s, key);
+    npz.strings("checksum", std::iter::once(sum.as_str()))?;
     npz.finish().map(drop)
 }
 
-struct Reader {
-    src: NpzSource,
+/// SHA-256 (first 16 hex digits) of the key and every saved array, in the order of the
+/// module documentation, each value little-endian (bools as one byte).
+fn checksum(t: &[i64], s: &RoundScores, key: &ScoresKey) -> String {
+    let mut h = Sha256::new();
+    for part in [&key.model, &key.data] {
+        h.update((part.len() as u64).to_le_bytes());
+        h.update(part.as_bytes());
+    }
+    let floats = |h: &mut Sha256, v: &[f32]| {
+        h.update((v.len() as u64).to_le_bytes());
+        v.iter().for_each(|x| h.update(x.to_le_bytes()));
+    };
+    t.iter().for_each(|x| h.update(x.to_le_bytes()));
+    floats(&mut h, &s.novelty);
+    floats(&mut h, &s.p_value);
+    h.update(s.flagged.iter().map(|&b| u8::from(b)).collect::<Vec<u8>>());
+    floats(&mut h, &s.contributions);
+    floats(&mut h, &s.action_gap);
+    floats(&mut h, &s.neighbour_action);
+    floats(&mut h, &s.neighbour_spread);
+    floats(&mut h, &s.ensemble_spread);
+    s.neighbours.iter().for_each(|x| h.update(x.to_le_bytes()));
+    floats(&mut h, &[s.threshold]);
+    h.update(s.alpha.to_le_bytes());
+    floats(&mut h, &s.scale);
+    s.phase_start
+        .iter()
+        .for_each(|&p| h.update((p as u64).to_le_bytes()));
+    floats(&mut h, &s.phase_threshold);
+    for o in &s.scale_origin {
+        let label = o.label();
+        h.update((label.len() as u64).to_le_bytes());
+        h.update(label.as_bytes());
+    }
+    h.finalize()[..8]
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+struct Reader<R: Read + Seek> {
+    src: NpzSource<R>,
     path: PathBuf,
 }
 
-impl Reader {
+impl<R: Read + Seek> Reader<R> {
     fn array(&mut self, name: &str, shape: &[u64]) -> Result<Array, NoveltyError> {
         let a = self
             .src
@@ -173,9 +266,19 @@ impl Reader {
             .map(|x| x as f32)
             .collect())
     }
+
+    fn text(&mut self, name: &str) -> Result<String, NoveltyError> {
+        match self.array(name, &[1])?.values {
+            Values::Text(mut v) => Ok(v.pop().unwrap_or_default()),
+            _ => Err(store_err(
+                &self.path,
+                format!("array `{name}` holds numbers, not text"),
+            )),
+        }
+    }
 }
 
-impl Reader {
+impl<R: Read + Seek> Reader<R> {
     fn phase_count(&mut self) -> Result<u64, NoveltyError> {
         let a = self
             .src
@@ -221,16 +324,104 @@ impl Reader {
     }
 }
 
-/// Loads saved scores of a round; refuses a file whose step count or dimensions do not match
-/// `steps` (the round changed since it was scored).
+/// Loads saved scores of a round and the key they were saved with; refuses a file whose step
+/// count or dimensions do not match `steps`, a file without a key (saved by an older
+/// version), a member failing its CRC-32 and scores failing their checksum.
 pub fn load_scores(
     root: &Path,
     round: u32,
     steps: &StepTable,
-) -> Result<RoundScores, NoveltyError> {
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
     let path = scores_path(root, round);
     let src = NpzSource::open(&path).map_err(|e| store_err(&path, e))?;
-    let mut r = Reader { src, path };
+    read_saved(Reader { src, path }, steps)
+}
+
+/// Like [`load_scores`], from the bytes of a scores archive in any seekable reader (errors
+/// name the file `scores.npz`).
+pub fn load_scores_from<R: Read + Seek>(
+    r: R,
+    steps: &StepTable,
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
+    let path = PathBuf::from(SCORES_FILE);
+    let src = NpzSource::new(r).map_err(|e| store_err(&path, e))?;
+    read_saved(Reader { src, path }, steps)
+}
+
+fn read_saved<R: Read + Seek>(
+    mut r: Reader<R>,
+    steps: &StepTable,
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
+    let scores = read_scores(&mut r, steps)?;
+    if r.src
+        .shape("checksum")
+        .map_err(|e| store_err(&r.path, e))?
+        .is_none()
+    {
+        return Err(store_err(
+            &r.path,
+            "no checksum or fingerprints (saved by an older version); score the round again",
+        ));
+    }
+    let key = ScoresKey {
+        model: r.text("model_fingerprint")?,
+        data: r.text("data_fingerprint")?,
+    };
+    if r.text("checksum")? != checksum(&steps.t, &scores, &key) {
+        return Err(store_err(
+            &r.path,
+            "the scores fail their checksum (the file was altered or damaged); score the round again",
+        ));
+    }
+    Ok((scores, key))
+}
+
+/// Why saved scores cannot stand in for scoring the round again.
+#[derive(Debug, thiserror::Error)]
+pub enum NotReusable {
+    /// The round was never scored (or its file was removed).
+    #[error("no saved scores")]
+    Missing,
+    /// The file could not be read, or failed a CRC, its checksum or a shape check.
+    #[error("saved scores not used: {0}")]
+    Unreadable(NoveltyError),
+    /// The novelty settings, spec or demonstrations changed since.
+    #[error(
+        "saved scores not used: they were made with other novelty settings, spec or demonstrations"
+    )]
+    ModelChanged,
+    /// The round's data changed since.
+    #[error("saved scores not used: the round's data changed since it was scored")]
+    DataChanged,
+}
+
+/// The one reuse rule for saved scores (the command line and the window both call it): the
+/// saved scores of `round` when they were made by the campaign's novelty model as it is now
+/// ([`ScoresKey::model`]) over the round's data as it is now ([`ScoresKey::data`]) and pass
+/// every integrity check; otherwise the reason they cannot be reused.
+pub fn reusable_scores(
+    c: &Campaign,
+    round: u32,
+    steps: &StepTable,
+) -> Result<RoundScores, NotReusable> {
+    if !scores_path(&c.root, round).is_file() {
+        return Err(NotReusable::Missing);
+    }
+    let (scores, saved) = load_scores(&c.root, round, steps).map_err(NotReusable::Unreadable)?;
+    let now = ScoresKey::of(c, steps);
+    if saved.model != now.model {
+        return Err(NotReusable::ModelChanged);
+    }
+    if saved.data != now.data {
+        return Err(NotReusable::DataChanged);
+    }
+    Ok(scores)
+}
+
+fn read_scores<R: Read + Seek>(
+    r: &mut Reader<R>,
+    steps: &StepTable,
+) -> Result<RoundScores, NoveltyError> {
     let n = steps.len() as u64;
     let (d, a) = (steps.state_dim as u64, steps.action_dim as u64);
     let t = r.floats("t", &[n])?;
@@ -279,4 +470,46 @@ pub fn load_scores(
         scale: r.f32s("scale", &[d])?,
         scale_origin: r.origins(d)?,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn scores() -> RoundScores {
+        RoundScores {
+            state_dim: 2,
+            k: 1,
+            novelty: vec![0.5],
+            p_value: vec![0.5],
+            flagged: vec![false],
+            contributions: vec![0.5, 0.5],
+            threshold: 1.0,
+            phase_start: vec![0, 4],
+            phase_threshold: vec![2.0, 1.0],
+            alpha: 0.1,
+            scale: vec![1.0, 2.0],
+            scale_origin: vec![ScaleOrigin::Mad, ScaleOrigin::Iqr],
+            ..RoundScores::default()
+        }
+    }
+
+    #[test]
+    fn the_checksum_covers_the_phases_and_the_scale_origins() {
+        let key = ScoresKey {
+            model: "m".into(),
+            data: "d".into(),
+        };
+        let base = checksum(&[0], &scores(), &key);
+        let mut s = scores();
+        s.phase_threshold[0] = 2.5;
+        assert_ne!(checksum(&[0], &s, &key), base, "phase_threshold");
+        let mut s = scores();
+        s.phase_start[1] = 5;
+        assert_ne!(checksum(&[0], &s, &key), base, "phase_start");
+        let mut s = scores();
+        s.scale_origin[1] = ScaleOrigin::StdDev;
+        assert_ne!(checksum(&[0], &s, &key), base, "scale_origin");
+        assert_eq!(checksum(&[0], &scores(), &key), base);
+    }
 }

@@ -16,6 +16,7 @@
 
 use rayon::prelude::*;
 
+use super::eigen::{JACOBI_MAX_DIM, leading_axes};
 use super::index::{Hit, TreeBackend, build_tree};
 
 /// Rows per parallel block when the index is built.
@@ -28,6 +29,11 @@ pub const SUBSPACE_TREE_DIM: usize = 16;
 pub const SUBSPACE_VARIANCE: f64 = 0.99;
 /// Rows sampled (evenly) to estimate the covariance.
 pub const COVARIANCE_SAMPLE_ROWS: usize = 50_000;
+/// Most values (rows times features) sampled for wide states: the sample only chooses the
+/// search path's axes, whose answers are exact whatever the axes.
+pub const COVARIANCE_SAMPLE_VALUES: usize = 2_000_000;
+/// Fewest rows sampled, however wide the states.
+pub const MIN_SAMPLE_ROWS: usize = 64;
 
 /// Principal-subspace index (see the module documentation).
 pub struct Subspace {
@@ -44,24 +50,26 @@ pub struct Subspace {
     tree: Box<dyn TreeBackend>,
 }
 
-/// Principal axes of scaled states: the mean, and every eigenpair of the covariance,
-/// largest eigenvalue first.
+/// Principal axes of scaled states: the mean, the leading eigenpairs of the covariance
+/// (largest eigenvalue first) and the total variance.
 #[derive(Debug, Clone)]
 pub struct Axes {
     dim: usize,
     mean: Vec<f32>,
-    /// Eigenvalues, descending.
+    /// The leading eigenvalues, descending.
     pub values: Vec<f64>,
+    /// Sum of every eigenvalue (the trace of the covariance).
+    pub total: f64,
     /// Eigenvectors in the same order, each `dim` long, row-major.
     vectors: Vec<f32>,
 }
 
-/// How many components the tree should hold for eigenvalues `values` (descending): the most
+/// How many components the tree should hold for the leading eigenvalues `values` (descending)
+/// of a covariance whose eigenvalues sum to `total`: the most
 /// that fit a compiled tree of 4, 8 or 16 dimensions with the residual norm (3, 7 or 15),
 /// taking the narrowest tree whose components hold [`SUBSPACE_VARIANCE`] of the variance,
 /// and the widest when none does. Padding is free, so a tree gets as many components as fit.
-pub fn components_for(values: &[f64]) -> usize {
-    let total: f64 = values.iter().map(|v| v.max(0.0)).sum();
+pub fn components_for(values: &[f64], total: f64) -> usize {
     let held = |m: usize| values.iter().take(m).map(|v| v.max(0.0)).sum::<f64>();
     for width in [4, 8, SUBSPACE_TREE_DIM] {
         let m = (width - 1).min(values.len());
@@ -279,55 +287,43 @@ fn local_ids(rows: &[u32]) -> Vec<u32> {
     local
 }
 
-/// Principal axes of `rows` of `states` scaled by `inv_scale`, from at most
-/// [`COVARIANCE_SAMPLE_ROWS`] rows taken at an even stride.
+/// Principal axes of `rows` of `states` scaled by `inv_scale`, from a sample taken at an even
+/// stride: at most [`COVARIANCE_SAMPLE_ROWS`] rows and, for states wider than
+/// [`JACOBI_MAX_DIM`], at most
+/// [`COVARIANCE_SAMPLE_VALUES`] values (but at least [`MIN_SAMPLE_ROWS`] rows). Only the
+/// leading [`SUBSPACE_TREE_DIM`]` - 1` axes are computed (see [`super::eigen`]).
 pub fn principal_axes(states: &[f32], dim: usize, inv_scale: &[f32], rows: &[u32]) -> Axes {
     let n = rows.len();
-    let stride = n.div_ceil(COVARIANCE_SAMPLE_ROWS).max(1);
-    let sample: Vec<Vec<f64>> = (0..n)
-        .step_by(stride)
-        .map(|i| {
-            let r = rows[i] as usize;
-            states[r * dim..(r + 1) * dim]
-                .iter()
-                .zip(inv_scale)
-                .map(|(x, s)| f64::from(x * s))
-                .collect()
-        })
-        .collect();
-    let count = sample.len().max(1) as f64;
+    let cap = if dim <= JACOBI_MAX_DIM {
+        COVARIANCE_SAMPLE_ROWS
+    } else {
+        (COVARIANCE_SAMPLE_VALUES / dim).clamp(MIN_SAMPLE_ROWS, COVARIANCE_SAMPLE_ROWS)
+    };
+    let stride = n.div_ceil(cap).max(1);
+    let picked: Vec<usize> = (0..n).step_by(stride).collect();
+    let mut x = Vec::with_capacity(picked.len() * dim);
+    for &i in &picked {
+        let r = rows[i] as usize;
+        let s = &states[r * dim..(r + 1) * dim];
+        x.extend(s.iter().zip(inv_scale).map(|(x, s)| f64::from(x * s)));
+    }
+    let count = picked.len().max(1) as f64;
     let mut mean = vec![0.0f64; dim];
-    for p in &sample {
-        for (m, &x) in mean.iter_mut().zip(p) {
-            *m += x / count;
+    for p in x.chunks_exact(dim.max(1)) {
+        for (m, &v) in mean.iter_mut().zip(p) {
+            *m += v / count;
         }
     }
-    let mut cov = vec![0.0f64; dim * dim];
-    for p in &sample {
-        for a in 0..dim {
-            let da = p[a] - mean[a];
-            for b in a..dim {
-                cov[a * dim + b] += da * (p[b] - mean[b]) / count;
-            }
-        }
+    for p in x.chunks_exact_mut(dim.max(1)) {
+        p.iter_mut().zip(&mean).for_each(|(v, m)| *v -= m);
     }
-    for a in 0..dim {
-        for b in 0..a {
-            cov[a * dim + b] = cov[b * dim + a];
-        }
-    }
-    let (values, vectors) = jacobi_eigen(cov, dim);
-    let mut order: Vec<usize> = (0..dim).collect();
-    order.sort_by(|&a, &b| values[b].total_cmp(&values[a]));
-    let mut basis = Vec::with_capacity(dim * dim);
-    for &c in &order {
-        basis.extend((0..dim).map(|r| vectors[r * dim + c] as f32));
-    }
+    let lead = leading_axes(&x, picked.len(), dim, SUBSPACE_TREE_DIM - 1);
     Axes {
         dim,
         mean: mean.iter().map(|&x| x as f32).collect(),
-        values: order.iter().map(|&c| values[c]).collect(),
-        vectors: basis,
+        values: lead.values,
+        total: lead.total,
+        vectors: lead.vectors.iter().map(|&v| v as f32).collect(),
     }
 }
 
@@ -336,57 +332,15 @@ impl Axes {
     pub fn dim(&self) -> usize {
         self.dim
     }
-}
 
-/// Eigenvalues and eigenvectors (columns of a row-major matrix) of a symmetric matrix by the
-/// cyclic Jacobi method (Golub & Van Loan, Matrix Computations, 4th ed., section 8.5).
-pub fn jacobi_eigen(mut a: Vec<f64>, n: usize) -> (Vec<f64>, Vec<f64>) {
-    let mut v = vec![0.0f64; n * n];
-    for i in 0..n {
-        v[i * n + i] = 1.0;
+    /// Mean of the scaled states the axes were found from.
+    pub fn mean(&self) -> &[f32] {
+        &self.mean
     }
-    for _sweep in 0..60 {
-        let off: f64 = (0..n)
-            .flat_map(|p| (0..n).filter(move |&q| q != p).map(move |q| (p, q)))
-            .map(|(p, q)| a[p * n + q] * a[p * n + q])
-            .sum();
-        let scale: f64 = (0..n).map(|i| a[i * n + i] * a[i * n + i]).sum();
-        if off <= 1e-22 * scale.max(1e-300) {
-            break;
-        }
-        for p in 0..n {
-            for q in p + 1..n {
-                rotate(&mut a, &mut v, n, p, q);
-            }
-        }
-    }
-    ((0..n).map(|i| a[i * n + i]).collect(), v)
-}
 
-fn rotate(a: &mut [f64], v: &mut [f64], n: usize, p: usize, q: usize) {
-    let apq = a[p * n + q];
-    if apq.abs() < 1e-300 {
-        return;
-    }
-    let theta = (a[q * n + q] - a[p * n + p]) / (2.0 * apq);
-    let t = theta.signum() / (theta.abs() + (theta * theta + 1.0).sqrt());
-    let t = if theta == 0.0 { 1.0 } else { t };
-    let c = 1.0 / (t * t + 1.0).sqrt();
-    let s = t * c;
-    for k in 0..n {
-        let (akp, akq) = (a[k * n + p], a[k * n + q]);
-        a[k * n + p] = c * akp - s * akq;
-        a[k * n + q] = s * akp + c * akq;
-    }
-    for k in 0..n {
-        let (apk, aqk) = (a[p * n + k], a[q * n + k]);
-        a[p * n + k] = c * apk - s * aqk;
-        a[q * n + k] = s * apk + c * aqk;
-    }
-    for k in 0..n {
-        let (vkp, vkq) = (v[k * n + p], v[k * n + q]);
-        v[k * n + p] = c * vkp - s * vkq;
-        v[k * n + q] = s * vkp + c * vkq;
+    /// Axis `i` (by eigenvalue, descending) as a unit vector over the scaled features.
+    pub fn vector(&self, i: usize) -> Option<&[f32]> {
+        self.vectors.get(i * self.dim..(i + 1) * self.dim)
     }
 }
 
@@ -399,13 +353,16 @@ mod tests {
         // Worked by hand. Total 10: three components hold 9.0 (90 %), seven hold 9.95
         // (99.5 % >= 99 %), so the 8-wide tree with 7 components.
         let v = [5.0, 3.0, 1.0, 0.5, 0.3, 0.1, 0.05, 0.03, 0.02];
-        assert_eq!(components_for(&v), 7);
+        assert_eq!(components_for(&v, 10.0), 7);
         // One dominant axis: three components hold 100 %, the 4-wide tree.
-        assert_eq!(components_for(&[1.0, 0.0, 0.0, 0.0, 0.0, 0.0]), 3);
+        assert_eq!(components_for(&[1.0, 0.0, 0.0, 0.0, 0.0, 0.0], 1.0), 3);
         // Twenty equal axes: 15 hold 75 %, no tree holds 99 %: the widest, 15 components.
-        assert_eq!(components_for(&[1.0; 20]), 15);
+        assert_eq!(components_for(&[1.0; 20], 20.0), 15);
+        // Only the leading values known: the total decides. 15 of 20 equal axes hold 75 %.
+        assert_eq!(components_for(&[1.0; 15], 20.0), 15);
+        assert_eq!(components_for(&[1.0; 3], 3.0), 3);
         // Fewer axes than a tree's components: all of them.
-        assert_eq!(components_for(&[2.0, 1.0]), 2);
+        assert_eq!(components_for(&[2.0, 1.0], 3.0), 2);
     }
 
     #[test]
@@ -426,18 +383,5 @@ mod tests {
             );
         }
         assert_eq!(squared_distance(&[1.0, 2.0], &[4.0, 6.0]), 25.0);
-    }
-
-    #[test]
-    fn jacobi_finds_the_eigenpairs_of_a_textbook_matrix() {
-        // [[2,1],[1,2]] has eigenvalues 1 and 3 with eigenvectors (1,-1)/sqrt2, (1,1)/sqrt2
-        // (worked by hand from the characteristic polynomial (2-l)^2 - 1).
-        let (vals, vecs) = jacobi_eigen(vec![2.0, 1.0, 1.0, 2.0], 2);
-        let mut sorted = vals.clone();
-        sorted.sort_by(f64::total_cmp);
-        assert!((sorted[0] - 1.0).abs() < 1e-12 && (sorted[1] - 3.0).abs() < 1e-12);
-        let big = if vals[0] > vals[1] { 0 } else { 1 };
-        let (x, y) = (vecs[big], vecs[2 + big]);
-        assert!((x.abs() - 0.5f64.sqrt()).abs() < 1e-12 && (x - y).abs() < 1e-12);
     }
 }

@@ -2,7 +2,8 @@
 //! 256 entries as carried by the PyPI package `cividis` 0.0.2 (extracted by
 //! tests/fixtures/plotting/make_cividis.py, which also wrote the fixture the tests compare with).
 
-// The table's numbers are published under this notice, which their licence asks to keep:
+// The table's numbers are published under this notice, which their licence asks to keep (it
+// travels with binaries in THIRD-PARTY-NOTICES, compiled in as `crate::THIRD_PARTY_NOTICES`):
 //
 // Copyright (c) 2017, Battelle Memorial Institute
 //

@@ -1,8 +1,12 @@
 //! The map's two axes: the spec's declared position pair, or else the first two principal
-//! components (Pearson 1901; Jolliffe 2002, *Principal Component Analysis*) of the scaled
-//! demonstration states.
+//! components (Pearson 1901; Jolliffe 2002, *Principal Component Analysis*) of the
+//! demonstration states in the novelty's metric: the same per-feature scales
+//! ([`crate::novelty::scale`]) and the same principal axes ([`crate::novelty::subspace`]) the
+//! novelty distance uses, so the map shows the distances it colours.
 
 use crate::campaign::{Spec, StepTable};
+use crate::novelty::scale::feature_scales;
+use crate::novelty::subspace::principal_axes;
 use crate::progress::Progress;
 
 /// How the map's axes were chosen.
@@ -34,7 +38,7 @@ pub struct Projection {
 impl Projection {
     /// Chooses the axes for `spec` over the demonstrations: the declared position pair when the
     /// spec has one, otherwise principal components of the states scaled feature by feature
-    /// (the spec's `scale`, else the demonstrations' standard deviation, else 1).
+    /// as the novelty scales them (the spec's `scale`, else the demonstrations' floored MAD).
     pub fn fit(spec: &Spec, demos: &StepTable, progress: &Progress) -> Projection {
         let d = demos.state_dim;
         if let Some([a, b]) = spec.position_indices() {
@@ -51,31 +55,19 @@ impl Projection {
             };
         }
         progress.stage("projecting", 2);
-        let (mean, sd) = moments(demos);
+        // The novelty's metric: its per-feature scales and its principal axes.
+        let scale = feature_scales(spec, demos);
+        let inv: Vec<f32> = scale.iter().map(|s| 1.0 / s).collect();
         progress.advance(1);
-        let scale: Vec<f64> = (0..d)
-            .map(|j| match spec.features.get(j).and_then(|f| f.scale) {
-                Some(s) => s,
-                None if sd[j] > 0.0 => sd[j],
-                None => 1.0,
-            })
-            .collect();
-        let cov = covariance(demos, &mean, &scale);
+        let rows: Vec<u32> = (0..demos.len() as u32).collect();
+        let axes = principal_axes(&demos.states, d, &inv, &rows);
         progress.advance(1);
-        let (values, vectors) = symmetric_eigen(cov, d);
-        let total: f64 = values
-            .iter()
-            .map(|v| v.max(0.0))
-            .sum::<f64>()
-            .max(f64::MIN_POSITIVE);
+        let total = axes.total.max(f64::MIN_POSITIVE);
         let pick = |r: usize| -> (Vec<f32>, f64) {
-            match (values.get(r), vectors.get(r)) {
-                (Some(&val), Some(vec)) => {
-                    let w = vec
-                        .iter()
-                        .zip(&scale)
-                        .map(|(v, s)| (v / s) as f32)
-                        .collect();
+            match (axes.values.get(r), axes.vector(r)) {
+                (Some(&val), Some(v)) => {
+                    let sign = largest_sign(v);
+                    let w = v.iter().zip(&inv).map(|(v, i)| sign * v * i).collect();
                     (w, val.max(0.0) / total)
                 }
                 _ => (vec![0.0; d], 0.0),
@@ -91,7 +83,7 @@ impl Projection {
                 format!("PC1 ({:.0}% of variance)", e0 * 100.0),
                 format!("PC2 ({:.0}% of variance)", e1 * 100.0),
             ],
-            center: mean.iter().map(|&m| m as f32).collect(),
+            center: axes.mean().iter().zip(&scale).map(|(m, s)| m * s).collect(),
             weights: [w0, w1],
         }
     }
@@ -126,112 +118,12 @@ impl Projection {
     }
 }
 
-fn moments(t: &StepTable) -> (Vec<f64>, Vec<f64>) {
-    let d = t.state_dim;
-    let n = t.len().max(1) as f64;
-    let mut mean = vec![0.0; d];
-    for s in t.states.chunks_exact(d.max(1)) {
-        mean.iter_mut().zip(s).for_each(|(m, &v)| *m += v as f64);
-    }
-    mean.iter_mut().for_each(|m| *m /= n);
-    let mut var = vec![0.0; d];
-    for s in t.states.chunks_exact(d.max(1)) {
-        for ((v, &x), m) in var.iter_mut().zip(s).zip(&mean) {
-            *v += (x as f64 - m).powi(2);
-        }
-    }
-    let sd = var.iter().map(|v| (v / n).sqrt()).collect();
-    (mean, sd)
-}
-
-/// Covariance (divided by n) of the states after centring by `mean` and dividing by `scale`.
-fn covariance(t: &StepTable, mean: &[f64], scale: &[f64]) -> Vec<f64> {
-    let d = t.state_dim;
-    let mut cov = vec![0.0; d * d];
-    let mut z = vec![0.0; d];
-    for s in t.states.chunks_exact(d.max(1)) {
-        for (((zj, &x), m), sc) in z.iter_mut().zip(s).zip(mean).zip(scale) {
-            *zj = (x as f64 - m) / sc;
-        }
-        for i in 0..d {
-            for j in i..d {
-                cov[i * d + j] += z[i] * z[j];
-            }
-        }
-    }
-    let n = t.len().max(1) as f64;
-    for i in 0..d {
-        for j in i..d {
-            cov[i * d + j] /= n;
-            cov[j * d + i] = cov[i * d + j];
-        }
-    }
-    cov
-}
-
-/// Eigenvalues (descending) and unit eigenvectors of a symmetric `d x d` matrix by the cyclic
-/// Jacobi method (Golub & Van Loan, *Matrix Computations*, 4th ed., section 8.5). Each vector's
-/// largest-magnitude component is made positive so the result does not depend on rounding.
-pub fn symmetric_eigen(mut a: Vec<f64>, d: usize) -> (Vec<f64>, Vec<Vec<f64>>) {
-    let mut v = vec![0.0; d * d];
-    (0..d).for_each(|i| v[i * d + i] = 1.0);
-    for _sweep in 0..64 {
-        let off: f64 = (0..d)
-            .flat_map(|i| (0..d).filter(move |&j| j != i).map(move |j| (i, j)))
-            .map(|(i, j)| a[i * d + j].powi(2))
-            .sum();
-        if off < 1e-24 {
-            break;
-        }
-        for p in 0..d {
-            for q in p + 1..d {
-                jacobi_rotate(&mut a, &mut v, d, p, q);
-            }
-        }
-    }
-    let mut order: Vec<usize> = (0..d).collect();
-    order.sort_by(|&i, &j| a[j * d + j].total_cmp(&a[i * d + i]));
-    let values = order.iter().map(|&i| a[i * d + i]).collect();
-    let vectors = order
+/// The sign that makes a vector's largest-magnitude component positive, so the map's axes do
+/// not flip with rounding.
+fn largest_sign(v: &[f32]) -> f32 {
+    let big = v
         .iter()
-        .map(|&c| {
-            let mut col: Vec<f64> = (0..d).map(|r| v[r * d + c]).collect();
-            let big = col
-                .iter()
-                .copied()
-                .fold(0.0f64, |m, x| if x.abs() > m.abs() { x } else { m });
-            if big < 0.0 {
-                col.iter_mut().for_each(|x| *x = -*x);
-            }
-            col
-        })
-        .collect();
-    (values, vectors)
-}
-
-fn jacobi_rotate(a: &mut [f64], v: &mut [f64], d: usize, p: usize, q: usize) {
-    let apq = a[p * d + q];
-    if apq.abs() < 1e-300 {
-        return;
-    }
-    let theta = (a[q * d + q] - a[p * d + p]) / (2.0 * apq);
-    let t = theta.signum() / (theta.abs() + (theta * theta + 1.0).sqrt());
-    let t = if theta == 0.0 { 1.0 } else { t };
-    let c = 1.0 / (t * t + 1.0).sqrt();
-    let s = t * c;
-    for k in 0..d {
-        let (akp, akq) = (a[k * d + p], a[k * d + q]);
-        a[k * d + p] = c * akp - s * akq;
-        a[k * d + q] = s * akp + c * akq;
-    }
-    for k in 0..d {
-        let (apk, aqk) = (a[p * d + k], a[q * d + k]);
-        a[p * d + k] = c * apk - s * aqk;
-        a[q * d + k] = s * apk + c * aqk;
-    }
-    for k in 0..d {
-        let (vkp, vkq) = (v[k * d + p], v[k * d + q]);
-        v[k * d + p] = c * vkp - s * vkq;
-        v[k * d + q] = s * vkp + c * vkq;
-    }
+        .copied()
+        .fold(0.0f32, |m, x| if x.abs() > m.abs() { x } else { m });
+    if big < 0.0 { -1.0 } else { 1.0 }
 }

@@ -4,7 +4,7 @@
 //! weighted consensus, see [`crate::novelty::signals`]).
 
 use crate::campaign::{ActionChannel, Campaign, ChannelKind};
-use crate::ledger::{Correction, Verdict, fingerprint};
+use crate::ledger::{Correction, Verdict, fingerprint, fingerprint_v1};
 use crate::novelty::RoundScores;
 
 /// One state feature of a step.
@@ -46,6 +46,8 @@ pub struct StepBrief {
     pub t: i64,
     /// The step's fingerprint now.
     pub fingerprint: String,
+    /// The step's fingerprint now in the first version, for verdicts recorded with it.
+    pub fingerprint_v1: String,
     /// Novelty, p-value and flag, once scored.
     pub novelty: Option<(f32, f32, bool)>,
     /// The learner's action gap (range units), once scored.
@@ -113,6 +115,7 @@ impl StepBrief {
             episode: steps.episodes[steps.episode_of(row)].name.clone(),
             t: steps.t[row],
             fingerprint: fingerprint(steps, row),
+            fingerprint_v1: fingerprint_v1(steps, row),
             novelty: scores.and_then(|s| {
                 Some((
                     *s.novelty.get(row)?,
@@ -150,7 +153,11 @@ impl StepBrief {
     /// True when a verdict given with `recorded` was given for other data than the step holds
     /// now.
     pub fn is_stale(&self, recorded: &str) -> bool {
-        recorded != self.fingerprint
+        if recorded.starts_with(crate::ledger::fingerprint::V2_PREFIX) {
+            recorded != self.fingerprint
+        } else {
+            recorded != self.fingerprint_v1
+        }
     }
 }
 

@@ -3,18 +3,19 @@
 //! [`excursions`] finds runs of flagged steps with hysteresis; [`plan`] gathers candidates
 //! (excursion onsets and peaks, steps before interventions, large action gaps), ranks them and
 //! chooses a diverse subset by greedy [`kcenter`] seeded with existing corrections; [`store`]
-//! writes the list to the campaign; [`sitting`] keeps the list as an annotator works through
-//! it, and [`brief`] gathers what the expert needs to judge one step.
+//! writes the list to the campaign and reads it back, and [`brief`] gathers what the expert needs to judge one step.
 
 pub mod brief;
+pub mod episodes;
 pub mod excursions;
 pub mod failure;
 pub mod kcenter;
 pub mod plan;
-pub mod sitting;
 pub mod store;
 
 pub use brief::{ChannelLine, FeatureLine, StepBrief};
+pub use episodes::{EpisodeStats, episode_stats};
 pub use excursions::{Excursion, ExcursionSettings, excursions};
-pub use plan::{PlanSettings, Planner, Reason, ReviewEntry, ReviewList, plan, states_of_rows};
-pub use sitting::{Judgement, Sitting, SittingEntry, Status, judgements};
+pub use plan::{
+    DEFAULT_BUDGET, PlanSettings, Planner, Reason, ReviewEntry, ReviewList, plan, states_of_rows,
+};

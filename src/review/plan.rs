@@ -82,6 +82,10 @@ impl Reason {
     }
 }
 
+/// The budget of a review list unless one is given: the one default of the command line,
+/// the window and the library.
+pub const DEFAULT_BUDGET: usize = 50;
+
 /// How the review list is made.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PlanSettings {
@@ -112,7 +116,7 @@ pub struct PlanSettings {
 impl Default for PlanSettings {
     fn default() -> Self {
         PlanSettings {
-            budget: 50,
+            budget: DEFAULT_BUDGET,
             min_gap: 10,
             pre_intervention: 10,
             action_gap_min: 0.25,

@@ -12,7 +12,7 @@ use std::path::{Path, PathBuf};
 
 use serde_json::json;
 
-use super::plan::ReviewList;
+use super::plan::{Reason, ReviewList};
 use crate::campaign::StepTable;
 use crate::novelty::NoveltyError;
 use crate::novelty::store::{real_round_dir, round_dir};
@@ -73,4 +73,72 @@ pub fn save_review_list(
         }
     })?;
     Ok(path)
+}
+
+/// One entry of a saved review list, located in the round's table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SavedEntry {
+    /// Row of the round's step table.
+    pub row: usize,
+    /// Why it is on the list.
+    pub reasons: Vec<Reason>,
+}
+
+#[derive(serde::Deserialize)]
+struct SavedLine {
+    episode: String,
+    t: i64,
+    #[serde(default)]
+    reasons: Vec<String>,
+}
+
+const REASONS: [Reason; 5] = [
+    Reason::ExcursionOnset,
+    Reason::ExcursionPeak,
+    Reason::BeforeIntervention,
+    Reason::ActionGap,
+    Reason::InsideExcursion,
+];
+
+fn reason_named(name: &str) -> Option<Reason> {
+    REASONS.into_iter().find(|r| r.as_str() == name)
+}
+
+/// Reads a round's saved review list (in rank order) and finds each entry in `steps`; refuses
+/// a line that is not an entry, names an unknown reason, or names a step the round does not
+/// hold (the round changed since the list was planned), naming the file, line and field.
+pub fn load_review_list(
+    root: &Path,
+    round: u32,
+    steps: &StepTable,
+) -> Result<Vec<SavedEntry>, NoveltyError> {
+    let path = review_list_path(root, round);
+    let fail = |line: usize, message: String| NoveltyError::Store {
+        path: path.clone(),
+        message: format!("line {line}: {message}"),
+    };
+    let text = std::fs::read_to_string(&path).map_err(|e| NoveltyError::Store {
+        path: path.clone(),
+        message: e.to_string(),
+    })?;
+    let mut out = Vec::new();
+    for (i, line) in text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| !l.trim().is_empty())
+    {
+        let n = i + 1;
+        let l: SavedLine = serde_json::from_str(line).map_err(|e| fail(n, e.to_string()))?;
+        let row = steps.find(&l.episode, l.t).ok_or_else(|| {
+            let msg = format!("fields `episode`, `t`: no step `{}` t {}", l.episode, l.t);
+            fail(n, msg)
+        })?;
+        let reasons = l
+            .reasons
+            .iter()
+            .map(|r| reason_named(r).ok_or_else(|| fail(n, format!("field `reasons`: `{r}`"))))
+            .collect::<Result<Vec<_>, _>>()?;
+        out.push(SavedEntry { row, reasons });
+    }
+    Ok(out)
 }

@@ -6,7 +6,8 @@
 //! neighbours) drives the rounds and, having only seen states near the expert's line, drifts
 //! off the lane in some episodes (covariate shift). [`rollout`] runs
 //! episodes with optional scripted interventions; [`scenario`] runs the whole campaign in
-//! memory and [`write`] writes it as a campaign folder with frame images ([`frames`]).
+//! memory and [`write`] writes it as a campaign folder with forward-camera frame images
+//! ([`frames`]).
 //! Everything is deterministic for a seed ([`rng`]).
 
 pub mod expert;

@@ -31,8 +31,9 @@ pub struct DemoConfig {
     pub demo_steer_noise: f64,
     /// Episodes per round that get frame images (those that strayed furthest from the centreline).
     pub frame_episodes: usize,
-    /// Side of the square frame images (pixels).
-    pub frame_size: u32,
+    /// Width of the forward-camera frame images (pixels); their height is
+    /// [`super::frames::ASPECT`] of it.
+    pub frame_width: u32,
     /// Number of ensemble members (bootstrap resamples).
     pub ensemble_size: usize,
     /// The learner fit on the demonstrations that drives the rounds. The default, radial
@@ -66,7 +67,7 @@ impl Default for DemoConfig {
             demo_episodes: 20,
             demo_steer_noise: 0.02,
             frame_episodes: 1,
-            frame_size: 96,
+            frame_width: 160,
             ensemble_size: 5,
             learner: LearnerKind::Rbf,
             lambda: 2.5,

@@ -262,7 +262,7 @@ fn write_frames(
     let images: Vec<(String, Result<Vec<u8>, String>)> = jobs
         .par_iter()
         .map(|(rel, lane, pose)| {
-            let img = render_frame(lane, pose, &cfg.expert.car, cfg.frame_size);
+            let img = render_frame(lane, pose, &cfg.expert.car, cfg.frame_width);
             progress.advance(1);
             (rel.clone(), encode_png(&img).map_err(|e| e.to_string()))
         })

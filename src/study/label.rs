@@ -7,7 +7,7 @@ use std::path::{Path, PathBuf};
 use super::{EXTRA_DEMO_SET, Strategy, StudyConfig, StudyError, sim_config, step_err};
 use crate::campaign::{Campaign, LoadOptions, StepTable, load_campaign};
 use crate::export::{ExportOptions, Format, export, read_merged};
-use crate::ledger::{Correction, Ledger, Verdict, fingerprint, read_ledgers};
+use crate::ledger::{Correction, Ledger, Verdict, fingerprint};
 use crate::progress::Progress;
 use crate::review::{PlanSettings, plan};
 use crate::sim::features::FEATURE_COUNT;
@@ -198,9 +198,13 @@ impl StrategyRun {
     ) -> Result<Vec<usize>, StudyError> {
         let n = steps.len();
         let scored = || -> Result<_, StudyError> {
-            let model = crate::novelty::build_model(c, progress)
-                .map_err(|e| step_err("novelty model")(e.to_string()))?;
-            crate::novelty::score_round(&model, c, steps, progress)
+            // Every study round adds demonstrations, so the round is always scored afresh.
+            let options = crate::workflow::AnalysisOptions {
+                rescore: true,
+                ..Default::default()
+            };
+            crate::workflow::analyse(c, r as u32, options, progress)
+                .map(|a| a.scores)
                 .map_err(|e| step_err("score")(e.to_string()))
         };
         Ok(match self.strategy {
@@ -275,9 +279,9 @@ impl StrategyRun {
 
     fn refit(&mut self, r: usize, progress: &Progress) -> Result<(), StudyError> {
         let c = self.load()?;
-        let ledgers =
-            read_ledgers(&self.dir).map_err(|e| step_err("read ledgers")(e.to_string()))?;
-        let tally = crate::consensus::tally(&c, &ledgers);
+        let tally = crate::workflow::tally_campaign(&c)
+            .map_err(|e| step_err("read ledgers")(e.to_string()))?
+            .tally;
         let out = self.dir.join(format!("exports/merged-{r:02}.npz"));
         export(&c, &tally, &ExportOptions::new(Format::Npz), &out, progress)
             .map_err(|e| step_err("export")(e.to_string()))?;

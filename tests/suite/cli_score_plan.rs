@@ -8,7 +8,7 @@ use std::process::Command;
 use countersteer::campaign::write::write_jsonl;
 use countersteer::novelty::synth::{SynthSpec, campaign, trajectories};
 
-fn make_campaign(root: &Path) {
+pub fn make_campaign(root: &Path) {
     let mut expert = SynthSpec::expert(30, 100, 5, 41);
     expert.latent = 3;
     let demos = trajectories(&expert);

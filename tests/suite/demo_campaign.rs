@@ -18,7 +18,7 @@ fn small(seed: u64) -> DemoConfig {
         seed,
         episodes: 3,
         demo_episodes: 3,
-        frame_size: 24,
+        frame_width: 24,
         ..DemoConfig::default()
     };
     cfg.rollout.max_steps = 60;

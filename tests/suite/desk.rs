@@ -15,7 +15,7 @@ use countersteer::app::Workbench;
 use countersteer::campaign::{LoadOptions, StepTable, load_campaign};
 use countersteer::ledger::fingerprint;
 use countersteer::progress::Progress;
-use countersteer::review::Status;
+use countersteer::workflow::Status;
 use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
@@ -68,7 +68,8 @@ fn three_verdicts_by_keyboard_and_an_undo_leave_exactly_these_records() {
     assert!(open >= 4, "the fixture round plans {open} entries");
     assert_eq!(h.state().desk.sitting.as_ref().unwrap().done(), 0);
 
-    // N: the top open entry. E, type, Enter: steer exactly 0.125. C J: mode's first choice.
+    // N: the top open entry. E, type, Enter: steer exactly 0.125. C Down: the mode's first
+    // choice.
     press(&mut h, Key::N);
     let first = h.state().current_row().unwrap();
     assert_eq!(
@@ -87,7 +88,7 @@ fn three_verdicts_by_keyboard_and_an_undo_leave_exactly_these_records() {
     h.step();
     press(&mut h, Key::Enter);
     press(&mut h, Key::C);
-    press(&mut h, Key::J);
+    press(&mut h, Key::ArrowDown);
     assert_eq!(h.state().desk.draft, [0.125, 0.0]);
     press(&mut h, Key::Enter);
     let second = h.state().current_row().unwrap();
@@ -177,8 +178,24 @@ fn the_help_overlay_lists_every_desk_and_list_key() {
     let mut h = harness(dir.path(), "ana");
     press(&mut h, Key::F1);
     for keys in [
-        "Enter", "S", "U", "Ctrl Z", "N", "C", "Shift C", "J", "L", "G", "K", "E", "M", "F2", "B",
-        "P", "Ctrl E",
+        "Enter",
+        "Shift Enter",
+        "S",
+        "U",
+        "Ctrl Z",
+        "N",
+        "C",
+        "Shift C",
+        "Up",
+        "Down",
+        "A",
+        "L",
+        "E",
+        "M",
+        "F2",
+        "B",
+        "R",
+        "Ctrl E",
     ] {
         assert!(
             h.query_by_label(keys).is_some(),
@@ -262,7 +279,7 @@ fn digit_keys_pick_choices_of_the_active_choice_channel_only() {
     common::rover::write_campaign(dir.path());
     let mut h = harness(dir.path(), "ana");
     press(&mut h, Key::N);
-    press(&mut h, Key::K); // the learner's action: a known draft to start from
+    press(&mut h, Key::L); // the learner's action: a known draft to start from
     let start = h.state().desk.draft.clone();
     // Channel 0 (steer) is continuous: a digit changes nothing and says why.
     press(&mut h, Key::Num2);
@@ -303,4 +320,57 @@ fn starting_a_review_puts_the_first_open_entry_on_the_desk() {
     h.state_mut().set_signals(signals);
     h.step();
     assert_eq!(h.state().current_row(), Some(first));
+}
+
+/// Shift Enter takes the suggestion (the experts nearby) and saves it in one key: the ledger
+/// holds exactly the suggested action, and the desk moves to the next open entry.
+#[test]
+fn shift_enter_saves_the_suggested_action() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path(), "ana");
+    press(&mut h, Key::N);
+    let first = h.state().current_row().unwrap();
+    let suggested = h.state().desk.brief.clone().unwrap().suggestion();
+    press(&mut h, Key::L); // a different draft first: Shift Enter must replace it
+    h.key_press_modifiers(egui::Modifiers::SHIFT, Key::Enter);
+    h.step();
+    h.step();
+    assert_ne!(h.state().current_row().unwrap(), first);
+    let records = ledger_records(dir.path(), "ana");
+    assert_eq!(records.len(), 1);
+    let action: Vec<f32> = records[0]["verdict"]["action"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| match (v.as_f64(), v.as_str()) {
+            (Some(x), _) => x as f32,
+            // The fixture's mode channel: choices `cruise` (0) and `slow` (1).
+            (None, Some(name)) => f32::from(u8::from(name == "slow")),
+            _ => panic!("{v}"),
+        })
+        .collect();
+    assert_eq!(action, suggested);
+}
+
+/// README's key table is the window's one table, row for row and in its order.
+#[test]
+fn readme_lists_every_key_as_the_table_does() {
+    use countersteer::app::keys::BINDINGS;
+    let readme =
+        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/README.md")).unwrap();
+    let rows: Vec<String> = BINDINGS
+        .iter()
+        .filter(|b| !b.keys.is_empty())
+        .map(|b| format!("| `{}` | {} |", b.keys, b.does))
+        .collect();
+    let listed: Vec<&str> = readme
+        .lines()
+        .filter(|l| l.starts_with("| `"))
+        .filter(|l| {
+            rows.iter()
+                .any(|r| r.split(" | ").next() == l.split(" | ").next())
+        })
+        .collect();
+    assert_eq!(listed, rows, "README's key table differs from app/keys.rs");
 }

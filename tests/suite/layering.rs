@@ -35,3 +35,79 @@ fn only_the_app_knows_about_the_window() {
     assert!(offenders.is_empty(), "{offenders:?}");
     assert!(files.len() > 20, "found only {} source files", files.len());
 }
+
+/// Lines of `files` that name any of `words`, comments left out.
+fn naming(files: &[std::path::PathBuf], words: &[&str]) -> Vec<String> {
+    let mut out = Vec::new();
+    for p in files {
+        let text = std::fs::read_to_string(p).unwrap();
+        for (i, l) in text.lines().enumerate() {
+            let code = l.trim_start();
+            if code.starts_with("//") {
+                continue;
+            }
+            if let Some(w) = words.iter().find(|w| code.contains(*w)) {
+                out.push(format!("{}:{}: {w}", p.display(), i + 1));
+            }
+        }
+    }
+    out
+}
+
+/// The window holds no pipeline rule of its own: it reads the ledgers, tallies, reuses or
+/// makes scores, plans the list and decides what stands only through `workflow` (and the
+/// ledger's own methods), never by calling the layers below directly.
+#[test]
+fn the_window_reaches_the_pipeline_only_through_the_workflow() {
+    let app = Path::new(env!("CARGO_MANIFEST_DIR")).join("src/app");
+    let mut files = Vec::new();
+    rust_files(&app, &mut files);
+    let words = [
+        "read_ledgers",
+        "consensus::tally",
+        "novelty::store",
+        "load_scores",
+        "score_round",
+        "build_model",
+        "Planner",
+        "review::plan",
+        "ledger::store",
+        "Entry::Retraction",
+        "retracted(",
+    ];
+    let offenders = naming(&files, &words);
+    assert!(offenders.is_empty(), "{offenders:#?}");
+    assert!(
+        files.len() > 10,
+        "found only {} files in src/app",
+        files.len()
+    );
+}
+
+/// The command line is the binary's (src/main.rs declares it): the library's public API does
+/// not hold it, and the library never names it.
+#[test]
+fn the_command_line_is_not_part_of_the_library() {
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("src");
+    let lib = std::fs::read_to_string(src.join("lib.rs")).unwrap();
+    let declares = |text: &str| {
+        text.lines()
+            .map(str::trim)
+            .any(|l| l == "mod cli;" || l == "pub mod cli;" || l.starts_with("pub(crate) mod cli"))
+    };
+    assert!(!declares(&lib), "src/lib.rs declares the cli module");
+    let main = std::fs::read_to_string(src.join("main.rs")).unwrap();
+    assert!(
+        declares(&main),
+        "src/main.rs does not declare the cli module"
+    );
+    let mut files = Vec::new();
+    rust_files(&src, &mut files);
+    let library: Vec<_> = files
+        .into_iter()
+        .filter(|p| !p.starts_with(src.join("cli")) && !p.starts_with(src.join("bin")))
+        .filter(|p| !p.ends_with("main.rs"))
+        .collect();
+    let offenders = naming(&library, &["crate::cli", "countersteer::cli"]);
+    assert!(offenders.is_empty(), "{offenders:#?}");
+}

@@ -12,19 +12,22 @@ mod common;
 mod bad_inputs;
 mod calibration;
 mod calibration_phases;
+mod cli_batch;
 mod cli_corrections;
 #[cfg(feature = "gui")]
 mod cli_gui;
+mod cli_pipes;
 mod cli_score_plan;
 mod conformal;
 mod demo_campaign;
 #[cfg(feature = "gui")]
 mod desk;
+mod eigen_fixture;
 mod export;
 mod export_numpy;
 #[cfg(feature = "gui")]
 mod export_window;
-mod fuzz_corpus;
+mod folder_rules;
 mod hostile;
 mod krippendorff_fixture;
 mod layering;
@@ -32,7 +35,9 @@ mod ledger_crash;
 mod ledger_guard;
 mod loaders;
 mod long_sitting;
+mod notices;
 mod novelty_knn;
+mod numpy_memory;
 mod outcomes;
 mod plotting;
 mod properties;
@@ -40,6 +45,7 @@ mod review_plan;
 mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
+mod saved_scores;
 mod scale_fixture;
 mod shared_folder;
 mod sim_closed_loop;
@@ -51,4 +57,5 @@ mod ui_sitting;
 mod window_kit;
 #[cfg(feature = "gui")]
 mod workbench;
+mod workflow;
 mod writes;

@@ -93,7 +93,8 @@ fn spec(d: usize) -> Spec {
     }
 }
 
-/// Principal components of standardised states equal numpy.linalg.eigh's (numpy 1.26.4).
+/// Principal components of the states in the novelty's scaling (floored MAD, as
+/// `novelty::scale`) equal numpy.linalg.eigh's (numpy 1.26.4): the map shows the novelty's metric.
 #[test]
 fn principal_projection_matches_numpy() {
     let v: serde_json::Value =

@@ -3,7 +3,7 @@
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 
 use countersteer::campaign::StepTable;
-use countersteer::novelty::store::{load_scores, save_scores};
+use countersteer::novelty::store::{ScoresKey, load_scores, save_scores};
 use countersteer::novelty::synth::{SynthSpec, campaign, trajectories};
 use countersteer::novelty::{RoundScores, build_model, score_round};
 use countersteer::progress::Progress;
@@ -116,9 +116,14 @@ fn min_distance_stops_the_list_when_the_ground_is_covered() {
 fn saved_scores_read_back_identically() {
     let (steps, s) = scored();
     let dir = tempfile::tempdir().unwrap();
-    let path = save_scores(dir.path(), 3, &steps, &s).unwrap();
+    let key = ScoresKey {
+        model: "m".into(),
+        data: "d".into(),
+    };
+    let path = save_scores(dir.path(), 3, &steps, &s, &key).unwrap();
     assert!(path.ends_with("analysis/3/scores.npz"));
-    let back = load_scores(dir.path(), 3, &steps).unwrap();
+    let (back, back_key) = load_scores(dir.path(), 3, &steps).unwrap();
+    assert_eq!(back_key, key);
     assert_eq!(back.novelty, s.novelty);
     assert_eq!(back.flagged, s.flagged);
     assert_eq!(back.neighbours, s.neighbours);

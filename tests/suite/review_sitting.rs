@@ -8,7 +8,8 @@ use crate::common;
 use countersteer::campaign::{LoadOptions, load_campaign};
 use countersteer::novelty::{build_model, score_round};
 use countersteer::progress::Progress;
-use countersteer::review::{Judgement, PlanSettings, Planner, Sitting, Status, states_of_rows};
+use countersteer::review::{PlanSettings, Planner, states_of_rows};
+use countersteer::workflow::{Judgement, Sitting, Status};
 
 #[test]
 fn a_judged_step_leaves_the_open_list_and_the_rest_is_planned_around_it() {

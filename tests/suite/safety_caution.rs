@@ -6,11 +6,13 @@
 #![allow(clippy::unwrap_used)] // test code: a panic is a failure report
 
 use crate::common;
+#[cfg(feature = "gui")]
 use crate::window_kit;
 
 use std::process::{Command, Output};
 
 use countersteer::SAFETY_CAUTION;
+#[cfg(feature = "gui")]
 use egui_kittest::kittest::Queryable;
 
 /// The text with line breaks, block-quote marks and runs of spaces folded away.
@@ -117,6 +119,7 @@ fn the_commands_toward_a_learner_print_the_caution_and_the_manifest_holds_it() {
 
 /// At the desk: shown to the annotator, put away with its button, remembered for them and
 /// today; another annotator sees it again. The help overlay carries it too.
+#[cfg(feature = "gui")]
 #[test]
 fn the_desk_shows_the_caution_once_per_annotator_and_day() {
     let dir = tempfile::tempdir().unwrap();

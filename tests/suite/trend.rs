@@ -69,7 +69,7 @@ fn the_trend_of_the_demo_campaign_matches_counts_made_from_its_files() {
         seed: 3,
         episodes: 6,
         demo_episodes: 8,
-        frame_size: 24,
+        frame_width: 24,
         ..DemoConfig::default()
     };
     cfg.rollout.max_steps = 200;
@@ -104,7 +104,7 @@ fn the_trend_of_the_demo_campaign_matches_counts_made_from_its_files() {
     for r in &trend {
         let steps = &c.round(r.round).unwrap().steps;
         // Scoring saved the scores; the trend's figures follow from them.
-        let s = load_scores(&c.root, r.round, steps).unwrap();
+        let (s, _) = load_scores(&c.root, r.round, steps).unwrap();
         let flagged = s
             .p_value
             .iter()

@@ -7,7 +7,8 @@ use crate::common;
 use crate::window_kit;
 
 use countersteer::app::Workbench;
-use countersteer::app::signals::{ExcursionRows, RoundSignals};
+use countersteer::app::signals::RoundSignals;
+use countersteer::review::Excursion;
 use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
@@ -64,7 +65,7 @@ fn opens_a_campaign_selects_an_episode_and_moves_the_playhead() {
     for _ in 0..5 {
         h.step();
     }
-    h.get_by_label("Pause").click();
+    h.get_by_label("Hold").click();
     h.step();
     let at = h.state().ui.step;
     assert!((5..=10).contains(&at), "playhead at {at}");
@@ -116,13 +117,13 @@ fn the_strip_reports_scores_and_jumps_between_excursions() {
     s.scores.neighbour_action = vec![0.1; n * 2];
     s.scores.neighbours = vec![0; n * 2];
     s.excursions = vec![
-        ExcursionRows {
+        Excursion {
             episode: 2,
             onset: 150,
             peak: 152,
             end: 159,
         },
-        ExcursionRows {
+        Excursion {
             episode: 2,
             onset: 170,
             peak: 171,
@@ -200,6 +201,30 @@ fn the_round_is_scored_in_the_background_and_the_shelf_puts_drift_first() {
 }
 
 #[test]
+fn saved_scores_made_from_other_data_are_not_shown() {
+    use countersteer::campaign::{LoadOptions, load_campaign};
+    use countersteer::novelty::{build_model, score_round, store};
+    use countersteer::progress::Progress;
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let c = load_campaign(dir.path(), &LoadOptions::default(), &Progress::new()).unwrap();
+    let steps = &c.round(1).unwrap().steps;
+    let model = build_model(&c, &Progress::new()).unwrap();
+    let mut scores = score_round(&model, &c, steps, &Progress::new()).unwrap();
+    scores.novelty[0] = 123.0;
+    // Saved under another alpha: the window must score again, not show these flags.
+    let mut key = store::ScoresKey::of(&c, steps);
+    key.model = "0000000000000000".into();
+    store::save_scores(dir.path(), 1, steps, &scores, &key).unwrap();
+    let h = harness(dir.path());
+    let msg = &h.state().status.message;
+    assert!(
+        msg.contains("scored now") && msg.contains("other novelty settings"),
+        "{msg}"
+    );
+}
+
+#[test]
 fn saved_scores_are_read_instead_of_scoring_again() {
     use countersteer::campaign::{LoadOptions, load_campaign};
     use countersteer::novelty::{build_model, score_round, store};
@@ -212,7 +237,8 @@ fn saved_scores_are_read_instead_of_scoring_again() {
     let mut scores = score_round(&model, &c, steps, &Progress::new()).unwrap();
     // Mark the saved file so reading it (not scoring again) is visible.
     scores.novelty[0] = 123.0;
-    store::save_scores(dir.path(), 1, steps, &scores).unwrap();
+    let key = store::ScoresKey::of(&c, steps);
+    store::save_scores(dir.path(), 1, steps, &scores, &key).unwrap();
     let h = harness(dir.path());
     assert!(
         h.state().status.message.contains("saved scores"),
@@ -295,4 +321,20 @@ fn the_strip_plots_fit_beside_the_desk_in_a_narrow_window() {
         strip > 100.0 && strip <= width - 280.0,
         "strip plots {strip} points wide in a {width}-point window"
     );
+}
+
+/// Under the window's own theme (larger text and spacing than egui's defaults) the drift
+/// strip keeps its height: its plots are sized from the style, so its contents never ask
+/// for more than the panel has (a panel grows to its contents, frame after frame, and the
+/// strip once swallowed the map that way).
+#[test]
+fn the_strip_keeps_its_height_under_the_theme() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path());
+    countersteer::app::theme::apply(&h.ctx);
+    let start = h.state().ui.layout.strip_height;
+    h.run_steps(40);
+    let end = h.state().ui.layout.strip_height;
+    assert!(end <= start + 1.0, "the strip grew from {start} to {end}");
 }

@@ -47,7 +47,8 @@ fn campaign_and_outside(base: &Path) -> (std::path::PathBuf, std::path::PathBuf)
     let outside = base.join("outside");
     std::fs::create_dir_all(&root).unwrap();
     std::fs::create_dir_all(&outside).unwrap();
-    kit::write_campaign(&root, 5);
+    // Long enough demonstrations that the calibration resolves the default alpha.
+    kit::write_campaign(&root, 60);
     (root, outside)
 }
 
