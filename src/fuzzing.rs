@@ -213,6 +213,9 @@ pub fn scores_example() -> Vec<u8> {
         threshold: 0.25,
         alpha: 0.05,
         scale: vec![1.0; 3],
+        phase_start: vec![0],
+        phase_threshold: vec![0.25],
+        scale_origin: vec![crate::novelty::scale::ScaleOrigin::Spec; 3],
     };
     let key = ScoresKey {
         model: "0123456789abcdef".into(),

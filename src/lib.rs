@@ -35,6 +35,7 @@ pub mod progress;
 pub mod review;
 pub mod sim;
 pub mod study;
+pub mod trend;
 pub mod workflow;
 
 /// The safety caution, word for word the same wherever it is shown: README, demo-data/README.md,

@@ -13,6 +13,7 @@ use pyo3::types::PyDict;
 use countersteer::campaign::StepTable;
 use countersteer::export::MergedSet;
 use countersteer::novelty::RoundScores;
+use countersteer::novelty::scale::ScaleOrigin;
 
 /// A row-major matrix as a 2-D numpy array.
 pub fn matrix<'py, T: numpy::Element + Clone>(
@@ -76,6 +77,11 @@ pub fn scores<'py>(
     d.set_item("threshold", vector(py, vec![s.threshold]))?;
     d.set_item("alpha", vector(py, vec![s.alpha]))?;
     d.set_item("scale", vector(py, s.scale))?;
+    let phases: Vec<i64> = s.phase_start.iter().map(|&p| p as i64).collect();
+    d.set_item("phase_start", vector(py, phases))?;
+    d.set_item("phase_threshold", vector(py, s.phase_threshold))?;
+    let origin: Vec<&str> = s.scale_origin.iter().map(|o| o.label()).collect();
+    d.set_item("scale_origin", origin)?;
     Ok(d)
 }
 
@@ -109,8 +115,41 @@ pub fn scores_from(d: &Bound<'_, PyDict>) -> PyResult<RoundScores> {
             .copied()
             .ok_or_else(|| crate::errors::usage(name, "scores: empty"))
     };
+    let threshold = one("threshold")? as f32;
+    let state_dim = width(d, "contributions")?;
+    // Scores made before per-phase calibration have one phase and scales given by the spec.
+    let phase_start = match d.get_item("phase_start")? {
+        Some(_) => flat::<i64>(d, "phase_start")?
+            .into_iter()
+            .map(|p| p.max(0) as usize)
+            .collect(),
+        None => vec![0],
+    };
+    let phase_threshold = match d.get_item("phase_threshold")? {
+        Some(_) => flat(d, "phase_threshold")?,
+        None => vec![threshold],
+    };
+    let scale_origin = match d.get_item("scale_origin")? {
+        Some(v) => {
+            // A numpy array of strings (`tolist` gives Python strings) or a list.
+            let labels: Vec<String> = match v.call_method0("tolist") {
+                Ok(l) => l.extract()?,
+                Err(_) => v.extract()?,
+            };
+            labels
+                .iter()
+                .map(|l| {
+                    ScaleOrigin::from_label(l).ok_or_else(|| {
+                        let msg = format!("scores: `scale_origin`: unknown origin `{l}`");
+                        crate::errors::usage("scale_origin", msg)
+                    })
+                })
+                .collect::<PyResult<_>>()?
+        }
+        None => vec![ScaleOrigin::Spec; state_dim],
+    };
     Ok(RoundScores {
-        state_dim: width(d, "contributions")?,
+        state_dim,
         action_dim: width(d, "neighbour_action")?,
         k: width(d, "neighbours")?,
         novelty: flat(d, "novelty")?,
@@ -122,9 +161,12 @@ pub fn scores_from(d: &Bound<'_, PyDict>) -> PyResult<RoundScores> {
         neighbour_spread: flat(d, "neighbour_spread")?,
         ensemble_spread: flat(d, "ensemble_spread")?,
         neighbours: flat(d, "neighbours")?,
-        threshold: one("threshold")? as f32,
+        threshold,
         alpha: one("alpha")?,
         scale: flat(d, "scale")?,
+        phase_start,
+        phase_threshold,
+        scale_origin,
     })
 }
 

@@ -327,6 +327,7 @@ impl Workbench {
             }
             Command::SetAnnotator(name) => self.set_annotator(name),
             Command::ToggleExport => self.export.open = !self.export.open,
+            Command::ToggleTrend => self.trend.toggle(),
             Command::PickExportTarget => self.pick_export_target(),
             Command::RunExport => self.run_export(),
             _ => {}

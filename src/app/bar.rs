@@ -32,6 +32,13 @@ pub fn bar_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
             {
                 cmds.push(Command::ToggleExport);
             }
+            if ui
+                .button("Rounds...")
+                .on_hover_text("The trend across rounds: flagged share, excursions, interventions, failures, labels")
+                .clicked()
+            {
+                cmds.push(Command::ToggleTrend);
+            }
         });
         agreement_ui(wb, ui);
         work_ui(wb, ui, cmds);

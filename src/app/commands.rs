@@ -78,6 +78,8 @@ pub enum Command {
     SetAnnotator(String),
     /// Show or hide the export window.
     ToggleExport,
+    /// Open or close the trend window (figures per round).
+    ToggleTrend,
     /// Choose the export target with the system save dialog.
     PickExportTarget,
     /// Run the export with the window's options.

@@ -28,6 +28,7 @@ pub mod status;
 pub mod strip;
 pub mod texts;
 pub mod theme;
+pub mod trend_view;
 pub mod views;
 pub mod workbench;
 

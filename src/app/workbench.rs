@@ -92,6 +92,8 @@ pub struct Workbench {
     pub desk: super::desk_state::Desk,
     /// The export window.
     pub export: super::export_view::ExportForm,
+    /// The trend window (figures per round).
+    pub trend: super::trend_view::TrendView,
 }
 
 impl Workbench {
@@ -137,6 +139,7 @@ impl Workbench {
             tally: None,
             desk: Default::default(),
             export: Default::default(),
+            trend: Default::default(),
         }
     }
 
@@ -236,6 +239,7 @@ impl Workbench {
         super::help::help_ui(self, ui.ctx(), &mut cmds);
         super::annotator::name_prompt_ui(self, ui.ctx(), &mut cmds);
         super::export_view::export_ui(self, ui.ctx(), &mut cmds);
+        super::trend_view::trend_ui(&mut self.trend, self.campaign.as_ref(), ui.ctx());
         for c in cmds {
             self.apply(c);
         }

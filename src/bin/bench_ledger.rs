@@ -84,6 +84,7 @@ fn spec() -> Spec {
         name: format!("s{n}"),
         unit: String::new(),
         scale: None,
+        kind: Default::default(),
     };
     let ch = |n: &str| ActionChannel {
         name: n.into(),
@@ -97,6 +98,7 @@ fn spec() -> Spec {
         features: (0..12).map(f).collect(),
         actions: vec![ch("steer"), ch("accel")],
         position: None,
+        outcomes: Vec::new(),
     }
 }
 

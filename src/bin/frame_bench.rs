@@ -27,6 +27,7 @@ fn spec() -> Spec {
             name: format!("s{i}"),
             unit: String::new(),
             scale: None,
+            kind: Default::default(),
         })
         .collect();
     let channel = |name: &str| ActionChannel {
@@ -41,6 +42,7 @@ fn spec() -> Spec {
         features,
         actions: vec![channel("steer"), channel("throttle")],
         position: None,
+        outcomes: Vec::new(),
     }
 }
 

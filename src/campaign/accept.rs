@@ -84,6 +84,28 @@ pub fn accept(
         log.error(kind, at, field, msg);
         return true;
     }
+    if let Some((had, line)) = b.outcome_conflict(&meta.episode, c.outcome.outcome) {
+        let names = c.spec().outcome_list();
+        let name = |i: u32| {
+            names
+                .get(i as usize)
+                .map_or("?", |o| o.name.as_str())
+                .to_string()
+        };
+        let msg = format!(
+            "episode `{}` has outcome `{}` here but `{}` at {} {line}; give one outcome per episode",
+            meta.episode,
+            c.outcome.outcome.map_or(String::new(), name),
+            name(had),
+            if matches!(at, Location::Record(_)) {
+                "record"
+            } else {
+                "line"
+            },
+        );
+        log.error(ProblemKind::ConflictingOutcome, at, "outcome", msg);
+        return true;
+    }
     let origin = match at {
         Location::Line(n) | Location::Record(n) => n,
         Location::File => 0,
@@ -97,6 +119,7 @@ pub fn accept(
         intervention: meta.intervention,
         samples: &c.samples,
         origin,
+        outcome: c.outcome,
     });
     true
 }

@@ -1,5 +1,6 @@
 //! CSV step files: a header row naming `episode`, `t`, every spec feature and action channel,
-//! and optionally `frame` and `intervention`. Ensemble samples are not carried by CSV.
+//! and optionally `frame`, `intervention`, `reward`, `cost` and `outcome` (an empty cell gives
+//! none). Ensemble samples are not carried by CSV.
 
 use std::io::Read;
 use std::path::Path;
@@ -8,6 +9,7 @@ use super::jsonl::{MAX_LINE_BYTES, utf16_mark};
 
 use super::accept::{RowMeta, accept};
 use super::error::{Location, ProblemKind, ProblemLog};
+use super::outcome::RawOutcome;
 use super::spec::Spec;
 use super::steps::StepTableBuilder;
 use super::validate::{RawValue, RowChecker, raw_from_text, resolve_frame};
@@ -20,6 +22,9 @@ struct Columns {
     actions: Vec<usize>,
     frame: Option<usize>,
     intervention: Option<usize>,
+    reward: Option<usize>,
+    cost: Option<usize>,
+    outcome: Option<usize>,
     width: usize,
 }
 
@@ -47,7 +52,16 @@ fn columns(header: &csv::StringRecord, spec: &Spec, log: &mut ProblemLog) -> Opt
         );
     }
     let known = |h: &str| {
-        ["episode", "t", "frame", "intervention"].contains(&h)
+        [
+            "episode",
+            "t",
+            "frame",
+            "intervention",
+            "reward",
+            "cost",
+            "outcome",
+        ]
+        .contains(&h)
             || spec.feature_index(h).is_some()
             || spec.channel_index(h).is_some()
     };
@@ -70,6 +84,9 @@ fn columns(header: &csv::StringRecord, spec: &Spec, log: &mut ProblemLog) -> Opt
         actions,
         frame: find("frame"),
         intervention: find("intervention"),
+        reward: find("reward"),
+        cost: find("cost"),
+        outcome: find("outcome"),
         width: header.len(),
     })
 }
@@ -237,6 +254,7 @@ pub fn read_csv<R: Read>(
                 continue;
             }
         };
+        ok &= outcome_cells(&record, &cols, checker, log, at);
         if ok {
             let meta = RowMeta {
                 episode: record[cols.episode].trim().to_string(),
@@ -249,6 +267,36 @@ pub fn read_csv<R: Read>(
             }
         }
     }
+}
+
+/// Reads the optional `reward`, `cost` and `outcome` cells into the checker.
+fn outcome_cells(
+    record: &csv::StringRecord,
+    cols: &Columns,
+    checker: &mut RowChecker<'_>,
+    log: &mut ProblemLog,
+    at: Location,
+) -> bool {
+    let mut ok = true;
+    let mut num = |col: Option<usize>, field: &str| -> Option<f64> {
+        let text = record.get(col?)?.trim();
+        if text.is_empty() {
+            return None;
+        }
+        let v = text.parse::<f64>();
+        if v.is_err() {
+            let msg = format!("`{text}` is not a number");
+            log.error(ProblemKind::MalformedCsv, at, field, msg);
+            ok = false;
+        }
+        v.ok()
+    };
+    let raw = RawOutcome {
+        reward: num(cols.reward, "reward"),
+        cost: num(cols.cost, "cost"),
+        outcome: cols.outcome.and_then(|i| record.get(i)),
+    };
+    checker.outcome(raw, log, at) && ok
 }
 
 fn parse_flag(s: &str) -> Result<Option<bool>, String> {

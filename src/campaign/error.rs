@@ -69,6 +69,8 @@ pub enum ProblemKind {
     BadEpisodeName,
     /// Text in an encoding other than UTF-8 (e.g. a UTF-16 byte-order mark).
     NotUtf8,
+    /// Two different outcomes given for one episode.
+    ConflictingOutcome,
     /// A frame image that does not decode (or declares more than the decoder's limits).
     BadFrame,
     /// A CSV header names one column twice.

@@ -7,6 +7,7 @@ use serde::Deserialize;
 
 use super::accept::{RowMeta, accept};
 use super::error::{Location, ProblemKind, ProblemLog};
+use super::outcome::RawOutcome;
 use super::steps::StepTableBuilder;
 use super::validate::{RawValue, RowChecker, resolve_frame};
 use crate::progress::Progress;
@@ -35,6 +36,12 @@ struct JsonStep {
     intervention: Option<bool>,
     #[serde(default)]
     samples: Option<Vec<Vec<RawValue>>>,
+    #[serde(default)]
+    reward: Option<f64>,
+    #[serde(default)]
+    cost: Option<f64>,
+    #[serde(default)]
+    outcome: Option<String>,
 }
 
 /// Reads one JSON Lines step file into the builder, reporting every fault to `log`.
@@ -128,6 +135,12 @@ fn row(
     for (i, s) in step.samples.iter().flatten().enumerate() {
         ok &= c.sample(s.iter(), log, at, &format!("samples[{i}]"));
     }
+    let raw = RawOutcome {
+        reward: step.reward,
+        cost: step.cost,
+        outcome: step.outcome.as_deref(),
+    };
+    ok &= c.outcome(raw, log, at);
     let frame = match step.frame.as_deref().map(|f| resolve_frame(data_dir, f)) {
         Some(Err(msg)) => {
             log.error(ProblemKind::BadFramePath, at, "frame", msg);

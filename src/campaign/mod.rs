@@ -16,6 +16,7 @@ pub mod frame;
 pub mod jsonl;
 pub mod npz;
 pub mod numpy;
+pub mod outcome;
 pub mod spec;
 pub mod steps;
 pub mod summary;
@@ -26,7 +27,9 @@ use std::path::PathBuf;
 
 pub use error::{CampaignError, Location, Problem, ProblemKind, Severity};
 pub use folder::{CheckReport, LoadOptions, check_campaign, load_campaign};
-pub use spec::{ActionChannel, CampaignFile, ChannelKind, Feature, NoveltySettings, Spec};
+pub use spec::{
+    ActionChannel, CampaignFile, ChannelKind, Feature, FeatureKind, NoveltySettings, Outcome, Spec,
+};
 pub use steps::{Episode, StepTable};
 
 /// One aggregation round: the rollouts of one learner version.

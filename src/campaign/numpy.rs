@@ -3,7 +3,8 @@
 //!
 //! Arrays: `states` (n, D) float, `actions` (n, A) float (discrete channels hold choice
 //! indices), `episode` (n,) integer or string, `t` (n,) integer; optional `intervention` (n,)
-//! bool or integer, `frame` (n,) string (empty for none), `samples` (n, S, A) float.
+//! bool or integer, `frame` (n,) string (empty for none), `samples` (n, S, A) float,
+//! `reward` and `cost` (n,) float (NaN for none), `outcome` (n,) string (empty for none).
 //! Parsing is npyz's; before any array is read its declared size is checked against the bytes
 //! that hold it, so a header cannot make the loader allocate more than the file carries.
 
@@ -25,7 +26,7 @@ use super::error::ProblemKind;
 use super::npz;
 
 /// The array names a NumPy step set may hold.
-pub const ARRAY_NAMES: [&str; 7] = [
+pub const ARRAY_NAMES: [&str; 10] = [
     "states",
     "actions",
     "episode",
@@ -33,6 +34,9 @@ pub const ARRAY_NAMES: [&str; 7] = [
     "intervention",
     "frame",
     "samples",
+    "reward",
+    "cost",
+    "outcome",
 ];
 
 /// Values of one array, converted to a common type.

@@ -20,6 +20,31 @@ pub struct Feature {
     /// is estimated from the demonstrations.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub scale: Option<f64>,
+    /// What the feature's values are: a continuous quantity (the default), a binary flag or a
+    /// categorical code. Binary and categorical features without a `scale` are scaled by the
+    /// range of their codes (see `novelty::scale`).
+    #[serde(default, skip_serializing_if = "FeatureKind::is_continuous")]
+    pub kind: FeatureKind,
+}
+
+/// What a state feature's values are (`"kind"` in the spec).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum FeatureKind {
+    /// A real-valued quantity.
+    #[default]
+    Continuous,
+    /// A flag: two codes, usually 0 and 1.
+    Binary,
+    /// A code naming one of several categories.
+    Categorical,
+}
+
+impl FeatureKind {
+    /// True for the default kind (left out when the spec is written).
+    pub fn is_continuous(&self) -> bool {
+        *self == FeatureKind::Continuous
+    }
 }
 
 /// How an action channel takes its values.
@@ -149,6 +174,38 @@ pub struct Spec {
     /// Optional pair of feature names drawn as the map's horizontal and vertical axes.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub position: Option<[String; 2]>,
+    /// The episode outcomes the data may name (`"outcome"` of a step); empty means
+    /// [`Outcome::defaults`]: `success` and `failure`.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub outcomes: Vec<Outcome>,
+}
+
+/// One outcome an episode may end with.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Outcome {
+    /// The name the data uses.
+    pub name: String,
+    /// True when an episode with this outcome failed (the steps before its end become review
+    /// candidates, and the trend counts it as a failure).
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub failure: bool,
+}
+
+impl Outcome {
+    /// The outcomes of a spec that declares none: `success` and `failure` (a failure).
+    pub fn defaults() -> Vec<Outcome> {
+        vec![
+            Outcome {
+                name: "success".into(),
+                failure: false,
+            },
+            Outcome {
+                name: "failure".into(),
+                failure: true,
+            },
+        ]
+    }
 }
 
 impl Spec {
@@ -172,6 +229,33 @@ impl Spec {
         self.actions.iter().position(|c| c.name == name)
     }
 
+    /// The outcomes the data may name, in index order (the declared ones, else the defaults).
+    pub fn outcome_list(&self) -> Vec<Outcome> {
+        if self.outcomes.is_empty() {
+            Outcome::defaults()
+        } else {
+            self.outcomes.clone()
+        }
+    }
+
+    /// Index of an outcome name in [`Spec::outcome_list`].
+    pub fn outcome_index(&self, name: &str) -> Option<usize> {
+        self.outcome_list().iter().position(|o| o.name == name)
+    }
+
+    /// Indices (in [`Spec::outcome_list`]) of the outcomes that are failures.
+    pub fn failure_indices(&self) -> Vec<u32> {
+        let list = self.outcome_list();
+        (0..list.len() as u32)
+            .filter(|&i| list[i as usize].failure)
+            .collect()
+    }
+
+    /// True when the outcome with this index is a failure.
+    pub fn is_failure(&self, index: usize) -> bool {
+        self.outcome_list().get(index).is_some_and(|o| o.failure)
+    }
+
     /// The map axes as feature indices, when the spec declares a position pair.
     pub fn position_indices(&self) -> Option<[usize; 2]> {
         let [a, b] = self.position.as_ref()?;
@@ -193,7 +277,15 @@ impl Spec {
                 "at least one action channel is needed".into(),
             ));
         }
-        let reserved = ["episode", "t", "frame", "intervention"];
+        let reserved = [
+            "episode",
+            "t",
+            "frame",
+            "intervention",
+            "reward",
+            "cost",
+            "outcome",
+        ];
         let mut seen = std::collections::HashSet::new();
         let names = self.features.iter().map(|f| ("features", &f.name));
         let names = names.chain(self.actions.iter().map(|c| ("actions", &c.name)));
@@ -236,6 +328,15 @@ impl Spec {
                         ));
                     }
                 }
+            }
+        }
+        let mut names = std::collections::HashSet::new();
+        for (i, o) in self.outcomes.iter().enumerate() {
+            if o.name.trim().is_empty() || !names.insert(o.name.as_str()) {
+                out.push((
+                    format!("spec.outcomes[{i}].name"),
+                    format!("`{}` is empty or used twice", o.name),
+                ));
             }
         }
         if let Some([a, b]) = &self.position {

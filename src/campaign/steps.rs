@@ -3,6 +3,8 @@
 use std::collections::HashMap;
 use std::path::PathBuf;
 
+use super::outcome::RowOutcome;
+
 /// One episode: a run of consecutive rows of a [`StepTable`].
 #[derive(Debug, Clone, PartialEq)]
 pub struct Episode {
@@ -53,6 +55,13 @@ pub struct StepTable {
     pub sources: Vec<PathBuf>,
     /// Line (text files, 1-based) or record (binary files, 0-based) of each row in its source.
     pub origins: Vec<u64>,
+    /// Reward per row (NaN where a row has none), or empty when no row carries one.
+    pub rewards: Vec<f32>,
+    /// Cost per row (NaN where a row has none), or empty when no row carries one.
+    pub costs: Vec<f32>,
+    /// Outcome per episode (index into the spec's outcome list), or empty when no episode
+    /// has one.
+    pub outcomes: Vec<Option<u32>>,
 }
 
 impl StepTable {
@@ -115,6 +124,29 @@ impl StepTable {
         Some(self.samples[a * d..b * d].chunks_exact(d))
     }
 
+    /// The reward of a row, if given.
+    pub fn reward(&self, row: usize) -> Option<f32> {
+        self.rewards.get(row).copied().filter(|x| !x.is_nan())
+    }
+
+    /// The cost of a row, if given.
+    pub fn cost(&self, row: usize) -> Option<f32> {
+        self.costs.get(row).copied().filter(|x| !x.is_nan())
+    }
+
+    /// The outcome of an episode (index into the spec's outcome list), if given.
+    pub fn outcome(&self, episode: usize) -> Option<u32> {
+        self.outcomes.get(episode).copied().flatten()
+    }
+
+    /// Position of `row` in its episode (0 for the episode's first step).
+    pub fn position(&self, row: usize) -> usize {
+        let e = self.episode_of(row);
+        self.episodes
+            .get(e)
+            .map_or(0, |e| row.saturating_sub(e.start))
+    }
+
     /// Index of the episode that holds `row`.
     pub fn episode_of(&self, row: usize) -> usize {
         self.episodes.partition_point(|e| e.start + e.len <= row)
@@ -172,6 +204,8 @@ pub struct StepRow<'a> {
     pub samples: &'a [f32],
     /// Line or record in the source file.
     pub origin: u64,
+    /// Reward, cost and the episode's outcome, where given.
+    pub outcome: RowOutcome,
 }
 
 /// How a pushed row relates to the rows before it of the same episode.
@@ -205,6 +239,9 @@ pub struct StepTableBuilder {
     interventions: Vec<bool>,
     any_intervention: bool,
     sample_counts: Vec<u32>,
+    rewards: Vec<f32>,
+    costs: Vec<f32>,
+    outcomes: Vec<Option<(u32, u64)>>,
     current_source: usize,
     source_start: usize,
     record_cap: usize,
@@ -227,6 +264,9 @@ impl StepTableBuilder {
             interventions: Vec::new(),
             any_intervention: false,
             sample_counts: Vec::new(),
+            rewards: Vec::new(),
+            costs: Vec::new(),
+            outcomes: Vec::new(),
             current_source: 0,
             source_start: 0,
             record_cap: DEFAULT_RECORD_CAP,
@@ -281,6 +321,15 @@ impl StepTableBuilder {
         (t < last_t).then_some(OrderFault::Backwards { previous_t: last_t })
     }
 
+    /// The outcome an episode already has and the origin (line or record) that gave it, when
+    /// it differs from `outcome`.
+    pub fn outcome_conflict(&self, episode: &str, outcome: Option<u32>) -> Option<(u32, u64)> {
+        let o = outcome?;
+        let &e = self.names.get(episode)?;
+        let (had, at) = self.outcomes.get(e as usize).copied().flatten()?;
+        (had != o).then_some((had, at))
+    }
+
     /// Adds a row. Call [`StepTableBuilder::order_fault`] first: rows out of order are the
     /// caller's to report and skip.
     pub fn push(&mut self, row: StepRow<'_>) {
@@ -296,6 +345,7 @@ impl StepTableBuilder {
                     source: self.current_source,
                 });
                 self.last.push((i64::MIN, 0, self.current_source));
+                self.outcomes.push(None);
                 e
             }
         };
@@ -315,6 +365,13 @@ impl StepTableBuilder {
         let d = self.table.action_dim.max(1);
         self.sample_counts.push((row.samples.len() / d) as u32);
         self.table.samples.extend_from_slice(row.samples);
+        self.rewards.push(row.outcome.reward.unwrap_or(f32::NAN));
+        self.costs.push(row.outcome.cost.unwrap_or(f32::NAN));
+        if let Some(o) = row.outcome.outcome
+            && self.outcomes[e as usize].is_none()
+        {
+            self.outcomes[e as usize] = Some((o, row.origin));
+        }
     }
 
     /// Regroups rows so that each episode is contiguous (episodes in order of first
@@ -331,6 +388,8 @@ impl StepTableBuilder {
         let any_samples = self.sample_counts.iter().any(|&c| c > 0);
         let mut frames = self.frames;
         let mut interventions = self.interventions;
+        let mut rewards = self.rewards;
+        let mut costs = self.costs;
         let mut counts = self.sample_counts;
         if !already_grouped {
             let mut next: Vec<usize> = t.episodes.iter().map(|e| e.start).collect();
@@ -344,6 +403,8 @@ impl StepTableBuilder {
             t.t = permute(&t.t, &dest, 1);
             t.origins = permute(&t.origins, &dest, 1);
             interventions = permute(&interventions, &dest, 1);
+            rewards = permute(&rewards, &dest, 1);
+            costs = permute(&costs, &dest, 1);
             let old_offsets = offsets(&counts);
             let d = t.action_dim.max(1);
             counts = permute(&counts, &dest, 1);
@@ -367,6 +428,12 @@ impl StepTableBuilder {
         } else {
             Vec::new()
         };
+        let given = |v: &[f32]| v.iter().any(|x| !x.is_nan());
+        t.rewards = if given(&rewards) { rewards } else { Vec::new() };
+        t.costs = if given(&costs) { costs } else { Vec::new() };
+        if self.outcomes.iter().any(Option::is_some) {
+            t.outcomes = self.outcomes.iter().map(|o| o.map(|o| o.0)).collect();
+        }
         if any_samples {
             t.sample_offsets = offsets(&counts);
         } else {
@@ -409,6 +476,7 @@ mod tests {
             intervention: Some(x > 2.0),
             samples,
             origin: (x * 10.0) as u64,
+            ..Default::default()
         });
     }
 

@@ -3,6 +3,7 @@
 use std::path::{Component, Path, PathBuf};
 
 use super::error::{Location, ProblemKind, ProblemLog};
+use super::outcome::{RawOutcome, RowOutcome, check_outcome};
 use super::spec::{ChannelKind, Spec};
 
 /// One action value as written in a file: a number, or a discrete choice's name.
@@ -25,6 +26,8 @@ pub struct RowChecker<'s> {
     pub action: Vec<f32>,
     /// Scratch flat samples of the last checked row.
     pub samples: Vec<f32>,
+    /// Outcome fields of the last checked row.
+    pub outcome: RowOutcome,
 }
 
 impl<'s> RowChecker<'s> {
@@ -35,6 +38,22 @@ impl<'s> RowChecker<'s> {
             state: Vec::new(),
             action: Vec::new(),
             samples: Vec::new(),
+            outcome: RowOutcome::default(),
+        }
+    }
+
+    /// Fills `self.outcome` from a row's raw outcome fields; false (with problems logged) when
+    /// unusable. Loaders call it for every row (with empty fields when the file has none).
+    pub fn outcome(&mut self, raw: RawOutcome<'_>, log: &mut ProblemLog, at: Location) -> bool {
+        match check_outcome(self.spec, raw, log, at) {
+            Some(o) => {
+                self.outcome = o;
+                true
+            }
+            None => {
+                self.outcome = RowOutcome::default();
+                false
+            }
         }
     }
 

@@ -65,11 +65,35 @@ pub fn write_jsonl<W: Write>(
                     Value::Array(s.map(|a| action_json(spec, a)).collect()),
                 );
             }
+            outcome_json(t, spec, row, &mut m);
             serde_json::to_writer(&mut w, &Value::Object(m))?;
             w.write_all(b"\n")?;
         }
     }
     w.flush()
+}
+
+/// The outcome name of the episode holding `row`, on the episode's last row only.
+fn outcome_at(t: &StepTable, spec: &Spec, row: usize) -> Option<String> {
+    let e = t.episode_of(row);
+    let ep = t.episodes.get(e)?;
+    if row + 1 != ep.start + ep.len {
+        return None;
+    }
+    let o = t.outcome(e)?;
+    spec.outcome_list().get(o as usize).map(|o| o.name.clone())
+}
+
+fn outcome_json(t: &StepTable, spec: &Spec, row: usize, m: &mut Map<String, Value>) {
+    if let Some(r) = t.reward(row) {
+        m.insert("reward".into(), json!(r));
+    }
+    if let Some(c) = t.cost(row) {
+        m.insert("cost".into(), json!(c));
+    }
+    if let Some(o) = outcome_at(t, spec, row) {
+        m.insert("outcome".into(), json!(o));
+    }
 }
 
 /// Writes a table as CSV (no ensemble samples: CSV does not carry them).
@@ -85,6 +109,16 @@ pub fn write_csv<W: Write>(t: &StepTable, spec: &Spec, data_dir: &str, w: W) -> 
     }
     if flags {
         header.push("intervention".into());
+    }
+    let extras = [
+        !t.rewards.is_empty(),
+        !t.costs.is_empty(),
+        !t.outcomes.is_empty(),
+    ];
+    for (name, on) in ["reward", "cost", "outcome"].iter().zip(extras) {
+        if on {
+            header.push((*name).into());
+        }
     }
     out.write_record(&header)?;
     for e in &t.episodes {
@@ -107,6 +141,13 @@ pub fn write_csv<W: Write>(t: &StepTable, spec: &Spec, data_dir: &str, w: W) -> 
             if flags {
                 rec.push(t.intervention(row).to_string());
             }
+            let num = |v: Option<f32>| v.map(|x| x.to_string()).unwrap_or_default();
+            let cells = [
+                num(t.reward(row)),
+                num(t.cost(row)),
+                outcome_at(t, spec, row).unwrap_or_default(),
+            ];
+            rec.extend(cells.into_iter().zip(extras).filter(|c| c.1).map(|c| c.0));
             out.write_record(&rec)?;
         }
     }
@@ -114,8 +155,19 @@ pub fn write_csv<W: Write>(t: &StepTable, spec: &Spec, data_dir: &str, w: W) -> 
 }
 
 /// Writes a table as `.npz` (states/actions float32, episode as strings, t int64,
-/// intervention bool when present). Frames and samples are left out.
+/// intervention bool, reward and cost float32 (NaN for none) when present). Frames, samples
+/// and outcomes (see [`write_npz_with_outcomes`]) are left out.
 pub fn write_npz<W: Write + io::Seek>(t: &StepTable, w: W) -> io::Result<()> {
+    write_npz_with_outcomes(t, None, w)
+}
+
+/// Like [`write_npz`], plus the `outcome` array (names from `spec`, empty for none; on each
+/// episode's last row) when `spec` is given and the table has outcomes.
+pub fn write_npz_with_outcomes<W: Write + io::Seek>(
+    t: &StepTable,
+    spec: Option<&Spec>,
+    w: W,
+) -> io::Result<()> {
     let mut npz = NpzWriter::new(w);
     let n = t.len() as u64;
     npz.numbers("states", &[n, t.state_dim as u64], t.states.iter().copied())?;
@@ -128,6 +180,18 @@ pub fn write_npz<W: Write + io::Seek>(t: &StepTable, w: W) -> io::Result<()> {
     npz.numbers("t", &[n], t.t.iter().copied())?;
     if !t.interventions.is_empty() {
         npz.numbers("intervention", &[n], t.interventions.iter().copied())?;
+    }
+    if !t.rewards.is_empty() {
+        npz.numbers("reward", &[n], t.rewards.iter().copied())?;
+    }
+    if !t.costs.is_empty() {
+        npz.numbers("cost", &[n], t.costs.iter().copied())?;
+    }
+    if let Some(spec) = spec.filter(|_| !t.outcomes.is_empty()) {
+        let names: Vec<String> = (0..t.len())
+            .map(|r| outcome_at(t, spec, r).unwrap_or_default())
+            .collect();
+        npz.strings("outcome", names.iter().map(String::as_str))?;
     }
     npz.finish().map(drop)
 }

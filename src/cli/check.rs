@@ -8,6 +8,7 @@ use super::{CliError, progress_bar::Bar};
 use countersteer::campaign::summary::summarize_campaign;
 use countersteer::campaign::{LoadOptions, Severity, check_campaign};
 use countersteer::novelty::model::{calibration_count, check_alpha, without_spread};
+use countersteer::novelty::scale::scales_with_origin;
 use countersteer::progress::Progress;
 
 /// Arguments of `check`.
@@ -29,7 +30,7 @@ pub struct CheckArgs {
 /// The novelty settings against the demonstrations: an alpha below what the calibration can
 /// resolve is refused; demonstrations without spread are warned about. Returns the warnings.
 fn novelty_checks(c: &countersteer::campaign::Campaign) -> Result<usize, CliError> {
-    if let Ok(n) = calibration_count(&c.demonstrations) {
+    if let Ok(n) = calibration_count(&c.demonstrations, c.file.novelty.alpha) {
         check_alpha(c.file.novelty.alpha, n).map_err(|e| CliError::invalid(e.to_string()))?;
     }
     if without_spread(&c.demonstrations) {
@@ -110,6 +111,12 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
                 f.unit
             );
         }
+    }
+    if !c.demonstrations.is_empty() {
+        let scales = scales_with_origin(c.spec(), &c.demonstrations);
+        let scale: Vec<f32> = scales.iter().map(|s| s.scale as f32).collect();
+        let origin: Vec<_> = scales.iter().map(|s| s.origin).collect();
+        super::score::print_scales(c.spec(), &scale, &origin);
     }
     if warnings > 0 {
         say!("{warnings} warning(s) above; the data was used as described in each");

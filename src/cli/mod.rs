@@ -20,6 +20,7 @@ mod gui;
 pub mod out;
 mod plan;
 mod progress_bar;
+pub mod rounds;
 mod score;
 mod study;
 mod tally;
@@ -59,6 +60,9 @@ pub enum Command {
     Score(score::ScoreArgs),
     /// Choose the steps of a round the expert should review, under a budget.
     Plan(plan::PlanArgs),
+    /// Show the trend across rounds: flagged share, excursions, interventions, failures,
+    /// novelty and labels spent per round.
+    Rounds(rounds::RoundsArgs),
     /// Write the orchard-rover demo campaign (spec, demonstrations, two rounds, frames).
     Demo(demo::DemoArgs),
     /// Compare labelling strategies over several aggregation rounds on the demo scenario.
@@ -94,6 +98,7 @@ pub fn main() -> ExitCode {
         Some(Command::Export(a)) => export::run(a),
         Some(Command::Score(a)) => score::run(a),
         Some(Command::Plan(a)) => plan::run(a),
+        Some(Command::Rounds(a)) => rounds::run(a),
         Some(Command::Demo(a)) => demo::run(a),
         Some(Command::Study(a)) => study::run(a),
     };
@@ -183,6 +188,18 @@ impl From<countersteer::workflow::WorkflowError> for CliError {
             W::NoRound(_) => CliError::usage(e.to_string()),
             W::Novelty(_) => CliError::invalid(e.to_string()),
             W::Ledger(l) => l.into(),
+        }
+    }
+}
+
+/// The trend's errors map as the pipeline's do: a ledger that cannot be read is a usage error
+/// (exit 2), a failure to score invalid data (exit 1).
+impl From<countersteer::trend::TrendError> for CliError {
+    fn from(e: countersteer::trend::TrendError) -> Self {
+        use countersteer::trend::TrendError as T;
+        match e {
+            T::Workflow(w) => w.into(),
+            T::Ledger(l) => l.into(),
         }
     }
 }

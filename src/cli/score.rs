@@ -7,6 +7,7 @@ use clap::Args;
 use super::{CliError, campaign_dir, progress_bar::Bar};
 use countersteer::campaign::{Campaign, LoadOptions, load_campaign};
 use countersteer::novelty::explain::{describe, flagged_shares, top_features};
+use countersteer::novelty::scale::ScaleOrigin;
 use countersteer::novelty::store::{ScoresKey, save_scores};
 use countersteer::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model, score_round};
 use countersteer::progress::Progress;
@@ -97,9 +98,11 @@ fn print_summary(
         model.alpha()
     );
     say!(
-        "  flag threshold: novelty > {:.4} (scaled units)",
-        s.threshold
+        "  flag threshold: novelty > {:.4} (scaled units) past the episode's first {} steps",
+        s.threshold,
+        s.phase_start.last().copied().unwrap_or(0)
     );
+    print_phases(model, steps, s);
     say!(
         "  steps: {n}, flagged: {flagged} ({:.1}%)",
         100.0 * flagged as f64 / n.max(1) as f64
@@ -111,8 +114,59 @@ fn print_summary(
         count_episodes(&ex),
         steps.episodes.len()
     );
+    print_scales(c.spec(), &s.scale, &s.scale_origin);
     print_features(c, s);
     print_worst(steps, s, &ex, worst);
+}
+
+/// Prints each calibration phase: its threshold, calibration scores and this round's flagged
+/// share, beside the share the pooled calibration (all phases together) would flag.
+fn print_phases(model: &NoveltyModel, steps: &countersteer::campaign::StepTable, s: &RoundScores) {
+    let phased = model.phased();
+    let p = phased.parts().len();
+    let (mut n, mut own, mut pooled) = (vec![0usize; p], vec![0usize; p], vec![0usize; p]);
+    for row in 0..s.len() {
+        let i = phased.phase(steps.position(row));
+        n[i] += 1;
+        own[i] += usize::from(s.flagged[row]);
+        pooled[i] += usize::from(model.conformal().flagged(s.novelty[row]));
+    }
+    say!(
+        "  calibration phases (steps from the episode's start; Mondrian conformal); the pooled calibration's threshold is {:.4}:",
+        model.conformal().threshold()
+    );
+    let starts = phased.starts();
+    for i in 0..p {
+        let end = starts
+            .get(i + 1)
+            .map_or("end".to_string(), |e| e.to_string());
+        let pct = |c: usize| 100.0 * c as f64 / n[i].max(1) as f64;
+        say!(
+            "    [{:>5}, {:>5}) {:>6} calibration scores, threshold {:>8.4}; {:>7} steps, {:>5.1}% flagged (pooled calibration {:.1}%)",
+            starts[i],
+            end,
+            phased.parts()[i].len(),
+            phased.parts()[i].threshold(),
+            n[i],
+            pct(own[i]),
+            pct(pooled[i])
+        );
+    }
+}
+
+/// Prints every feature's novelty scale and where it came from.
+pub fn print_scales(spec: &countersteer::campaign::Spec, scale: &[f32], origin: &[ScaleOrigin]) {
+    say!("  novelty scales (each feature is divided by its scale):");
+    for (j, (s, o)) in scale.iter().zip(origin).enumerate() {
+        let f = spec.features.get(j);
+        say!(
+            "    {:<24} {:>12.5} {:<6} from {}",
+            f.map_or("?", |f| f.name.as_str()),
+            s,
+            f.map_or("", |f| f.unit.as_str()),
+            o.label()
+        );
+    }
 }
 
 fn count_episodes(ex: &[countersteer::review::Excursion]) -> usize {

@@ -40,6 +40,10 @@ pub struct StudyArgs {
     /// stay the expert's clean commands.
     #[arg(long, default_value_t = countersteer::sim::DemoConfig::default().demo_steer_noise)]
     pub demo_noise: f64,
+    /// Steps before a failed episode's end (the rover left the lane) that the review list
+    /// may choose; 0 leaves them out.
+    #[arg(long, default_value_t = countersteer::review::PlanSettings::default().before_failure)]
+    pub before_failure: usize,
 }
 
 /// Runs `study`.
@@ -65,6 +69,7 @@ pub fn run(a: StudyArgs) -> Result<(), CliError> {
         train_episodes: a.train_episodes.max(1),
         eval_episodes: a.eval_episodes.max(1),
         budget: a.budget.max(1),
+        before_failure: a.before_failure,
         ..StudyConfig::default()
     };
     let out = output_dir(&a.dir);

@@ -10,6 +10,7 @@ fn spec() -> Spec {
         name: n.into(),
         unit: "m".into(),
         scale: None,
+        kind: Default::default(),
     };
     Spec {
         features: vec![f("x"), f("y")],
@@ -31,6 +32,7 @@ fn spec() -> Spec {
             },
         ],
         position: None,
+        outcomes: Vec::new(),
     }
 }
 

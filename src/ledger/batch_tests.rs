@@ -14,6 +14,7 @@ fn spec() -> Spec {
             name: "x".into(),
             unit: "m".into(),
             scale: None,
+            kind: Default::default(),
         }],
         actions: vec![
             ActionChannel {
@@ -33,6 +34,7 @@ fn spec() -> Spec {
             },
         ],
         position: None,
+        outcomes: Vec::new(),
     }
 }
 

@@ -9,8 +9,9 @@ use sha2::{Digest, Sha256};
 use crate::campaign::{Campaign, StepTable};
 
 /// Changes whenever the way a model is built or a round is scored changes, so that scores
-/// saved by an older version are made again.
-pub const MODEL_VERSION: &str = "countersteer-novelty-2";
+/// saved by an older version are made again (3: scales that cannot collapse, feature kinds and
+/// per-phase calibration).
+pub const MODEL_VERSION: &str = "countersteer-novelty-3";
 
 /// The first 16 hex digits of a finished hash.
 fn hex(h: Sha256) -> String {

@@ -17,6 +17,7 @@ pub mod eigen;
 pub mod explain;
 pub mod index;
 pub mod model;
+pub mod phase;
 pub mod query;
 pub mod saved;
 pub mod scale;

@@ -9,10 +9,12 @@
 //! not change when files are renamed or reordered.
 //!
 //! **Calibration.** An index over the fit episodes scores the calibration episodes' steps (up
-//! to [`CALIBRATION_CAP`] steps, taken at an even stride through every calibration episode).
-//! A fresh expert episode is exchangeable with the calibration episodes, and a uniformly chosen
-//! step of it is exchangeable with a uniformly chosen calibration step, which is what the
-//! conformal guarantee needs.
+//! to [`CALIBRATION_CAP`] steps, taken at an even stride within each phase). A fresh expert
+//! episode is exchangeable with the calibration episodes, and a uniformly chosen step of one
+//! phase of it (a range of positions from the episode's start, see [`super::phase`]) is
+//! exchangeable with a uniformly chosen calibration step of the same phase, which is what the
+//! per-phase (Mondrian) conformal guarantee needs. The pooled calibration (every phase
+//! together) is kept for comparison.
 //!
 //! **Scoring index.** Rollouts are scored against an index over ALL demonstrations (more
 //! neighbours, better action estimates). Adding points to an index can only shrink a k-th
@@ -23,8 +25,9 @@
 use super::NoveltyError;
 use super::conformal::{Conformal, smallest_alpha};
 use super::index::{Hit, KnnIndex};
+use super::phase::{PhasedConformal, phase_starts};
 use super::query::seeded_knn;
-use super::scale::feature_scales;
+use super::scale::{ScaleOrigin, scales_with_origin};
 use crate::campaign::{Campaign, StepTable};
 use crate::progress::Progress;
 
@@ -46,9 +49,11 @@ pub struct EpisodeSplit {
 #[derive(Debug)]
 pub struct NoveltyModel {
     scale: Vec<f32>,
+    origin: Vec<ScaleOrigin>,
     inv_scale: Vec<f32>,
     index: KnnIndex,
     conformal: Conformal,
+    phased: PhasedConformal,
     k: usize,
     split: EpisodeSplit,
 }
@@ -87,16 +92,20 @@ fn rows_of(demos: &StepTable, episodes: &[usize]) -> Vec<u32> {
 pub fn build_model(campaign: &Campaign, progress: &Progress) -> Result<NoveltyModel, NoveltyError> {
     let demos = &campaign.demonstrations;
     let settings = &campaign.file.novelty;
-    build_model_from(
+    let scales = scales_with_origin(campaign.spec(), demos);
+    let model = build_model_from(
         demos,
-        feature_scales(campaign.spec(), demos),
+        scales.iter().map(|s| s.scale as f32).collect(),
         settings.k,
         settings.alpha,
         progress,
-    )
+    )?;
+    Ok(model.with_origins(scales.iter().map(|s| s.origin).collect()))
 }
 
-/// Builds the model from parts: demonstrations, per-feature scales, k and alpha.
+/// Builds the model from parts: demonstrations, per-feature scales, k and alpha. The scales'
+/// origin is recorded as [`ScaleOrigin::Spec`] (given by the caller); see
+/// [`NoveltyModel::with_origins`].
 pub fn build_model_from(
     demos: &StepTable,
     scale: Vec<f32>,
@@ -109,7 +118,9 @@ pub fn build_model_from(
         return Err(NoveltyError::BadScale);
     }
     let split = split_episodes(demos)?;
-    check_alpha(alpha, calibration_rows(demos, &split.calibration).len())?;
+    let starts = calibration_phases(demos, &split, alpha);
+    let cal_rows = calibration_rows(demos, &split.calibration, &starts);
+    check_phases(alpha, &phase_counts(demos, &cal_rows, &starts))?;
     let fit_rows = rows_of(demos, &split.fit);
     if k == 0 || fit_rows.len() < k {
         return Err(NoveltyError::TooFewStates {
@@ -122,7 +133,6 @@ pub fn build_model_from(
     let fit =
         KnnIndex::build(&demos.states, d, &inv_scale, &fit_rows).map_err(NoveltyError::Index)?;
     progress.advance(1);
-    let cal_rows = calibration_rows(demos, &split.calibration);
     let hits = seeded_knn(
         &fit,
         &inv_scale,
@@ -133,25 +143,71 @@ pub fn build_model_from(
         progress,
     )?;
     let novelties: Vec<f32> = hits.chunks_exact(k).map(kth_distance).collect();
+    let at: Vec<(usize, f32)> = cal_rows
+        .iter()
+        .map(|&r| demos.position(r))
+        .zip(novelties.iter().copied())
+        .collect();
+    let phased = PhasedConformal::new(&at, starts, alpha);
     drop(fit);
     let all: Vec<u32> = (0..demos.len() as u32).collect();
     progress.stage("indexing", 1);
     let index = KnnIndex::build(&demos.states, d, &inv_scale, &all).map_err(NoveltyError::Index)?;
     progress.advance(1);
     Ok(NoveltyModel {
+        origin: vec![ScaleOrigin::Spec; scale.len()],
         scale,
         inv_scale,
         index,
         conformal: Conformal::new(novelties, alpha),
+        phased,
         k,
         split,
     })
 }
 
-/// How many calibration states the demonstrations give (see the module documentation).
-pub fn calibration_count(demos: &StepTable) -> Result<usize, NoveltyError> {
+/// The calibration phases' starts for a split and alpha (see [`super::phase`]).
+fn calibration_phases(demos: &StepTable, split: &EpisodeSplit, alpha: f64) -> Vec<usize> {
+    let lengths: Vec<usize> = split
+        .calibration
+        .iter()
+        .map(|&e| demos.episodes[e].len)
+        .collect();
+    phase_starts(&lengths, alpha)
+}
+
+/// Calibration rows in each phase.
+fn phase_counts(demos: &StepTable, rows: &[usize], starts: &[usize]) -> Vec<usize> {
+    let mut n = vec![0; starts.len()];
+    for &r in rows {
+        let pos = demos.position(r);
+        n[starts.partition_point(|&s| s <= pos).saturating_sub(1)] += 1;
+    }
+    n
+}
+
+/// How many calibration states each calibration phase gets at `alpha` (see the module
+/// documentation): each phase is calibrated on its own, so the smallest reachable alpha is the
+/// smallest phase's.
+pub fn calibration_counts(demos: &StepTable, alpha: f64) -> Result<Vec<usize>, NoveltyError> {
     let split = split_episodes(demos)?;
-    Ok(calibration_rows(demos, &split.calibration).len())
+    let starts = calibration_phases(demos, &split, alpha);
+    let rows = calibration_rows(demos, &split.calibration, &starts);
+    Ok(phase_counts(demos, &rows, &starts))
+}
+
+/// The calibration states of the smallest calibration phase at `alpha` (what
+/// [`check_alpha`] needs; see [`calibration_counts`]).
+pub fn calibration_count(demos: &StepTable, alpha: f64) -> Result<usize, NoveltyError> {
+    Ok(calibration_counts(demos, alpha)?
+        .into_iter()
+        .min()
+        .unwrap_or(0))
+}
+
+/// [`check_alpha`] for every phase's calibration count: the smallest phase decides.
+pub fn check_phases(alpha: f64, counts: &[usize]) -> Result<(), NoveltyError> {
+    check_alpha(alpha, counts.iter().copied().min().unwrap_or(0))
 }
 
 /// Refuses an `alpha` below what `n` calibration states can resolve
@@ -185,22 +241,35 @@ pub fn kth_distance(hits: &[Hit]) -> f32 {
     hits.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt())
 }
 
-fn calibration_rows(demos: &StepTable, episodes: &[usize]) -> Vec<usize> {
-    let total: usize = episodes.iter().map(|&e| demos.episodes[e].len).sum();
-    let stride = total.div_ceil(CALIBRATION_CAP).max(1);
-    episodes
-        .iter()
-        .flat_map(|&e| demos.episodes[e].rows().step_by(stride))
-        .collect()
+/// The calibration episodes' rows, phase by phase, each phase thinned at an even stride to at
+/// most its share of [`CALIBRATION_CAP`] (early phases are short and kept whole).
+fn calibration_rows(demos: &StepTable, episodes: &[usize], starts: &[usize]) -> Vec<usize> {
+    let cap = (CALIBRATION_CAP / starts.len().max(1)).max(1);
+    let mut out = Vec::new();
+    for (i, &a) in starts.iter().enumerate() {
+        let b = starts.get(i + 1).copied().unwrap_or(usize::MAX);
+        let rows: Vec<usize> = episodes
+            .iter()
+            .flat_map(|&e| {
+                let ep = &demos.episodes[e];
+                let end = ep.len.min(b);
+                (ep.start + a.min(end))..(ep.start + end)
+            })
+            .collect();
+        let stride = rows.len().div_ceil(cap).max(1);
+        out.extend(rows.into_iter().step_by(stride));
+    }
+    out.sort_unstable();
+    out
 }
 
 impl NoveltyModel {
-    /// A model from its saved parts and an index rebuilt over every demonstration row (see
+    /// A model from its saved parts (the pooled and the per-phase calibration) and an index rebuilt over every demonstration row (see
     /// [`super::saved`]): the same model [`build_model_from`] made, without calibrating again.
     pub fn from_parts(
         demos: &StepTable,
         scale: Vec<f32>,
-        conformal: Conformal,
+        (conformal, phased): (Conformal, PhasedConformal),
         k: usize,
         split: EpisodeSplit,
     ) -> Result<Self, NoveltyError> {
@@ -212,10 +281,12 @@ impl NoveltyModel {
         let index = KnnIndex::build(&demos.states, demos.state_dim, &inv_scale, &all)
             .map_err(NoveltyError::Index)?;
         Ok(NoveltyModel {
+            origin: vec![ScaleOrigin::Spec; scale.len()],
             scale,
             inv_scale,
             index,
             conformal,
+            phased,
             k,
             split,
         })
@@ -226,19 +297,41 @@ impl NoveltyModel {
         &self.scale
     }
 
+    /// Where each feature's scale came from.
+    pub fn scale_origin(&self) -> &[ScaleOrigin] {
+        &self.origin
+    }
+
+    /// The model with the scales' origins replaced (one per feature; ignored otherwise).
+    pub fn with_origins(mut self, origin: Vec<ScaleOrigin>) -> Self {
+        if origin.len() == self.scale.len() {
+            self.origin = origin;
+        }
+        self
+    }
+
     /// Reciprocals of the scales.
     pub fn inv_scale(&self) -> &[f32] {
         &self.inv_scale
     }
 
-    /// Novelty above which a step is flagged (its p-value is at most alpha).
+    /// Novelty above which a step of the last phase (the bulk of an episode) is flagged.
     pub fn threshold(&self) -> f32 {
-        self.conformal.threshold()
+        self.phased
+            .parts()
+            .last()
+            .map_or(f32::INFINITY, Conformal::threshold)
     }
 
-    /// The conformal p-value of a novelty score.
-    pub fn p_value(&self, score: f32) -> f64 {
-        self.conformal.p_value(score)
+    /// The per-phase conformal p-value of a novelty score at a position in its episode
+    /// (0 for the episode's first step).
+    pub fn p_value(&self, score: f32, position: usize) -> f64 {
+        self.phased.p_value(score, position)
+    }
+
+    /// The per-phase calibration.
+    pub fn phased(&self) -> &PhasedConformal {
+        &self.phased
     }
 
     /// The flag level.
@@ -251,7 +344,7 @@ impl NoveltyModel {
         self.k
     }
 
-    /// The calibration.
+    /// The pooled calibration (every phase together).
     pub fn conformal(&self) -> &Conformal {
         &self.conformal
     }
@@ -305,5 +398,24 @@ impl NoveltyModel {
         self.nearest(state, self.k)
             .last()
             .map_or(f32::INFINITY, |h| h.1)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_smallest_calibration_phase_decides_the_alpha_floor() {
+        // 605 scores pooled would resolve alpha 0.01 (1/606), but a phase of 5 scores resolves
+        // only 1/6 = 0.16667 (by hand), shown rounded up at the fourth digit as 0.1667.
+        assert!(check_alpha(0.01, 605).is_ok());
+        match check_phases(0.01, &[5, 600]) {
+            Err(NoveltyError::AlphaBelowFloor { n, smallest, .. }) => {
+                assert_eq!((n, smallest.as_str()), (5, "0.1667"));
+            }
+            other => panic!("{other:?}"),
+        }
+        assert!(check_phases(0.2, &[5, 600]).is_ok());
     }
 }

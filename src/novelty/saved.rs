@@ -7,11 +7,12 @@
 //! | bytes | content |
 //! | --- | --- |
 //! | 8 | magic `CSNOVMDL` |
-//! | 4 | format version, `u32` (this is version 1) |
+//! | 4 | format version, `u32` (this is version 2: per-phase calibration, scale origins) |
 //! | 4 | header length `h`, `u32` |
 //! | `h` | header: a JSON object (see [`Header`]): settings, split, dimensions, fingerprint |
 //! | `4 * state_dim` | per-feature scales, `f32` |
-//! | `4 * n` | the `n` calibration novelties, ascending, `f32` |
+//! | `4 * n` | the `n` calibration novelties, ascending, `f32` (the pooled calibration) |
+//! | `4 * m` | each phase's calibration novelties, ascending, phase after phase (`phase_scores` in the header) |
 //! | 32 | SHA-256 of every byte before it (a truncated or damaged file is refused) |
 //!
 //! **The index is rebuilt, not stored.** [`KnnIndex::build`] is deterministic (kiddo's
@@ -38,8 +39,10 @@ use sha2::{Digest, Sha256};
 use super::NoveltyError;
 use super::conformal::Conformal;
 use super::model::{EpisodeSplit, NoveltyModel};
+use super::phase::PhasedConformal;
+use super::scale::ScaleOrigin;
 use super::scale::feature_scales;
-use super::score::{RoundScores, score_steps};
+use super::score::{RoundScores, score_steps_from};
 use super::store::ANALYSIS_DIR;
 use crate::campaign::{ActionChannel, Campaign, Episode, StepTable};
 use crate::progress::Progress;
@@ -49,7 +52,7 @@ pub const MODEL_FILE: &str = "model.bin";
 /// The file's first eight bytes.
 pub const MAGIC: &[u8; 8] = b"CSNOVMDL";
 /// The format version this code writes and reads.
-pub const FORMAT_VERSION: u32 = 1;
+pub const FORMAT_VERSION: u32 = 2;
 
 /// `analysis/model.bin` of a campaign.
 pub fn model_path(root: &Path) -> PathBuf {
@@ -122,6 +125,12 @@ pub struct Header {
     pub split: SplitHeader,
     /// Number of calibration novelties stored after the scales.
     pub calibration_scores: usize,
+    /// The first position of each calibration phase (see [`super::phase`]).
+    pub phase_start: Vec<usize>,
+    /// Number of calibration novelties of each phase, stored after the pooled ones.
+    pub phase_scores: Vec<usize>,
+    /// Where each feature's scale came from ([`ScaleOrigin::label`]).
+    pub scale_origin: Vec<String>,
     /// The search path the index takes, in words (informational).
     pub index: String,
 }
@@ -182,6 +191,13 @@ pub fn encode(model: &NoveltyModel, demos: &StepTable) -> Vec<u8> {
             calibration: split.calibration.clone(),
         },
         calibration_scores: model.conformal().len(),
+        phase_start: model.phased().starts().to_vec(),
+        phase_scores: model.phased().parts().iter().map(Conformal::len).collect(),
+        scale_origin: model
+            .scale_origin()
+            .iter()
+            .map(|o| o.label().to_string())
+            .collect(),
         index: model.index().path(),
     };
     let json = serde_json::to_vec(&header).unwrap_or_default();
@@ -190,7 +206,13 @@ pub fn encode(model: &NoveltyModel, demos: &StepTable) -> Vec<u8> {
     out.extend_from_slice(&FORMAT_VERSION.to_le_bytes());
     out.extend_from_slice(&(json.len() as u32).to_le_bytes());
     out.extend_from_slice(&json);
-    for v in model.scale().iter().chain(model.conformal().scores()) {
+    let phases = model.phased().parts().iter().flat_map(Conformal::scores);
+    for v in model
+        .scale()
+        .iter()
+        .chain(model.conformal().scores())
+        .chain(phases)
+    {
         out.extend_from_slice(&v.to_le_bytes());
     }
     let digest = Sha256::digest(&out);
@@ -221,6 +243,8 @@ pub struct Decoded {
     pub scale: Vec<f32>,
     /// Calibration novelties, ascending.
     pub calibration: Vec<f32>,
+    /// Each phase's calibration novelties, ascending.
+    pub phases: Vec<Vec<f32>>,
 }
 
 struct Cursor<'a> {
@@ -303,6 +327,18 @@ pub fn decode(bytes: &[u8], path: &Path) -> Result<Decoded, ModelFileError> {
         .map_err(|e| format_err(path, "header", e))?;
     let scale = c.f32s(header.state_dim, "scale")?;
     let calibration = c.f32s(header.calibration_scores, "calibration")?;
+    if header.phase_scores.len() != header.phase_start.len() || header.phase_start.is_empty() {
+        return Err(format_err(
+            path,
+            "header",
+            "`phase_start` and `phase_scores` must name the same phases (at least one)",
+        ));
+    }
+    let phases = header
+        .phase_scores
+        .iter()
+        .map(|&n| c.f32s(n, "phases"))
+        .collect::<Result<Vec<_>, _>>()?;
     if c.at != body.len() {
         return Err(format_err(
             path,
@@ -314,6 +350,7 @@ pub fn decode(bytes: &[u8], path: &Path) -> Result<Decoded, ModelFileError> {
         header,
         scale,
         calibration,
+        phases,
     })
 }
 
@@ -357,10 +394,21 @@ pub fn load_model(path: &Path, demos: &StepTable) -> Result<NoveltyModel, ModelF
         fit: d.header.split.fit,
         calibration: d.header.split.calibration,
     };
-    let conformal = Conformal::new(d.calibration, d.header.alpha);
-    Ok(NoveltyModel::from_parts(
-        demos, d.scale, conformal, d.header.k, split,
-    )?)
+    let alpha = d.header.alpha;
+    let conformal = Conformal::new(d.calibration, alpha);
+    let parts = d.phases.into_iter().map(|p| Conformal::new(p, alpha));
+    let phased = PhasedConformal::from_parts(d.header.phase_start, parts.collect());
+    let origin = d
+        .header
+        .scale_origin
+        .iter()
+        .map(|o| {
+            ScaleOrigin::from_label(o)
+                .ok_or_else(|| format_err(path, "header", format!("unknown scale origin `{o}`")))
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    let model = NoveltyModel::from_parts(demos, d.scale, (conformal, phased), d.header.k, split)?;
+    Ok(model.with_origins(origin))
 }
 
 /// Loads `analysis/model.bin` for a campaign: refuses it when the demonstrations, `k`,
@@ -405,10 +453,17 @@ pub fn build_and_save(
 }
 
 /// Rows `rows` of a table as a table of their own: episodes cut at the ends, frames,
-/// interventions, samples and origins kept with their rows.
+/// interventions, samples, origins, rewards, costs and outcomes kept with their rows.
 pub fn shard(t: &StepTable, rows: Range<usize>) -> StepTable {
     let rows = rows.start.min(t.len())..rows.end.min(t.len());
     let (a, b) = (rows.start, rows.end);
+    let kept = |e: &Episode| e.start.max(a) < (e.start + e.len).min(b);
+    let outcomes = if t.outcomes.is_empty() {
+        Vec::new()
+    } else {
+        let each = t.episodes.iter().zip(&t.outcomes);
+        each.filter(|(e, _)| kept(e)).map(|(_, o)| *o).collect()
+    };
     let episodes = t
         .episodes
         .iter()
@@ -455,7 +510,18 @@ pub fn shard(t: &StepTable, rows: Range<usize>) -> StepTable {
         sample_offsets,
         samples,
         sources: t.sources.clone(),
-        origins: t.origins.get(rows).map(<[u64]>::to_vec).unwrap_or_default(),
+        origins: t
+            .origins
+            .get(rows.clone())
+            .map(<[u64]>::to_vec)
+            .unwrap_or_default(),
+        rewards: t
+            .rewards
+            .get(rows.clone())
+            .map(<[f32]>::to_vec)
+            .unwrap_or_default(),
+        costs: t.costs.get(rows).map(<[f32]>::to_vec).unwrap_or_default(),
+        outcomes,
     }
 }
 
@@ -469,7 +535,13 @@ pub fn score_shard(
     rows: Range<usize>,
     progress: &Progress,
 ) -> Result<RoundScores, NoveltyError> {
-    score_steps(model, demos, channels, &shard(steps, rows), progress)
+    let lead = if rows.start < steps.len() {
+        steps.position(rows.start)
+    } else {
+        0
+    };
+    let part = shard(steps, rows);
+    score_steps_from(model, demos, channels, (&part, lead), progress)
 }
 
 #[cfg(test)]

@@ -207,7 +207,7 @@ fn a_damaged_or_foreign_file_is_refused_with_its_field() {
     );
     // A future version with a valid checksum is named as such.
     let mut future = bytes[..bytes.len() - 32].to_vec();
-    future[8] = 2;
+    future[8] = FORMAT_VERSION as u8 + 1;
     let digest = Sha256::digest(&future);
     future.extend_from_slice(&digest);
     assert_eq!(field_of(&future), "version");

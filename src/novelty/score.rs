@@ -7,6 +7,7 @@ use super::NoveltyError;
 use super::index::Hit;
 use super::model::NoveltyModel;
 use super::query::seeded_knn;
+use super::scale::ScaleOrigin;
 use super::signals::{channel_gap, consensus, contributions, ensemble_spread, rms, weights};
 use crate::campaign::{ActionChannel, Campaign, StepTable};
 use crate::progress::Progress;
@@ -41,12 +42,18 @@ pub struct RoundScores {
     pub ensemble_spread: Vec<f32>,
     /// `n * k`: demonstration rows of the k nearest neighbours, nearest first.
     pub neighbours: Vec<u32>,
-    /// The novelty above which steps are flagged.
+    /// The novelty above which steps of the last phase (the bulk of an episode) are flagged.
     pub threshold: f32,
+    /// First position (steps from the episode's start) of each calibration phase.
+    pub phase_start: Vec<usize>,
+    /// The flag threshold of each phase (see `novelty::phase`).
+    pub phase_threshold: Vec<f32>,
     /// The flag level.
     pub alpha: f64,
     /// The per-feature scales the novelty was measured with (`state_dim` values).
     pub scale: Vec<f32>,
+    /// Where each scale came from (`state_dim` values).
+    pub scale_origin: Vec<ScaleOrigin>,
 }
 
 impl RoundScores {
@@ -75,6 +82,16 @@ impl RoundScores {
         &self.neighbours[row * self.k..(row + 1) * self.k]
     }
 
+    /// The flag threshold at a position in an episode (the last phase's past the phases, or
+    /// `threshold` when no phases were saved).
+    pub fn threshold_at(&self, position: usize) -> f32 {
+        let i = self.phase_start.partition_point(|&s| s <= position);
+        i.checked_sub(1)
+            .and_then(|i| self.phase_threshold.get(i))
+            .copied()
+            .unwrap_or(self.threshold)
+    }
+
     /// Number of flagged steps.
     pub fn flagged_count(&self) -> usize {
         self.flagged.iter().filter(|&&f| f).count()
@@ -86,8 +103,11 @@ impl RoundScores {
             action_dim: steps.action_dim,
             k: m.k().min(m.index().len()),
             threshold: m.threshold(),
+            phase_start: m.phased().starts().to_vec(),
+            phase_threshold: m.phased().thresholds(),
             alpha: m.alpha(),
             scale: m.scale().to_vec(),
+            scale_origin: m.scale_origin().to_vec(),
             ..Default::default()
         }
     }
@@ -129,6 +149,19 @@ pub fn score_steps(
     steps: &StepTable,
     progress: &Progress,
 ) -> Result<RoundScores, NoveltyError> {
+    score_steps_from(model, demos, channels, (steps, 0), progress)
+}
+
+/// [`score_steps`] for a table whose first episode starts `lead` steps into its episode (a
+/// shard of a round cut inside an episode): positions in that episode, which choose the
+/// calibration phase, are counted from the episode's real start.
+pub fn score_steps_from(
+    model: &NoveltyModel,
+    demos: &StepTable,
+    channels: &[ActionChannel],
+    (steps, lead): (&StepTable, usize),
+    progress: &Progress,
+) -> Result<RoundScores, NoveltyError> {
     if steps.state_dim != demos.state_dim || steps.action_dim != demos.action_dim {
         return Err(NoveltyError::DimensionMismatch {
             expected: demos.state_dim,
@@ -152,6 +185,7 @@ pub fn score_steps(
         channels,
         steps,
         k,
+        lead,
     };
     let parts: Vec<RoundScores> = rows
         .par_chunks(4096)
@@ -170,6 +204,7 @@ struct Ctx<'a> {
     channels: &'a [ActionChannel],
     steps: &'a StepTable,
     k: usize,
+    lead: usize,
 }
 
 impl Ctx<'_> {
@@ -181,7 +216,12 @@ impl Ctx<'_> {
         for &row in rows {
             let h = &hits[row * self.k..(row + 1) * self.k];
             let novelty = h.last().map_or(f32::INFINITY, |h| h.1.max(0.0).sqrt());
-            let p = self.model.p_value(novelty);
+            let lead = if self.steps.episode_of(row) == 0 {
+                self.lead
+            } else {
+                0
+            };
+            let p = self.model.p_value(novelty, self.steps.position(row) + lead);
             s.novelty.push(novelty);
             s.p_value.push(p as f32);
             s.flagged.push(p <= self.model.alpha());

@@ -17,9 +17,12 @@
 //! | `neighbour_spread` | float32 | (n,) | the neighbours' spread, range units |
 //! | `ensemble_spread` | float32 | (n,) | ensemble sample spread (NaN: no samples) |
 //! | `neighbours` | uint32 | (n, k) | demonstration rows of the neighbours, nearest first |
-//! | `threshold` | float32 | (1,) | novelty above which steps are flagged |
+//! | `threshold` | float32 | (1,) | novelty above which steps of the last phase are flagged |
+//! | `phase_start` | int64 | (P,) | first position (steps from the episode's start) of each calibration phase |
+//! | `phase_threshold` | float32 | (P,) | novelty above which steps of each phase are flagged |
 //! | `alpha` | float64 | (1,) | flag level |
 //! | `scale` | float32 | (D,) | per-feature scales of the novelty distance |
+//! | `scale_origin` | unicode | (D,) | where each scale came from: `spec`, `MAD`, `IQR`, `standard deviation`, `unit`, `binary`, `categorical` |
 //! | `model_fingerprint` | unicode | (1,) | the novelty model's inputs ([`digest::model_fingerprint`]) |
 //! | `data_fingerprint` | unicode | (1,) | the round's data ([`digest::data_fingerprint`]) |
 //! | `checksum` | unicode | (1,) | SHA-256 (16 hex digits) of both fingerprints and every array above |
@@ -40,6 +43,7 @@ use sha2::{Digest, Sha256};
 
 use super::NoveltyError;
 use super::digest;
+use super::scale::ScaleOrigin;
 use super::score::RoundScores;
 use crate::campaign::numpy::{Array, ArraySource, NpzSource, Values};
 use crate::campaign::{Campaign, StepTable};
@@ -166,8 +170,13 @@ pub fn write_npz<W: Write + std::io::Seek>(
     put(&mut npz, "ensemble_spread", &[n], &s.ensemble_spread)?;
     put(&mut npz, "neighbours", &[n, s.k as u64], &s.neighbours)?;
     put(&mut npz, "threshold", &[1], &[s.threshold])?;
+    let phases: Vec<i64> = s.phase_start.iter().map(|&p| p as i64).collect();
+    put(&mut npz, "phase_start", &[phases.len() as u64], &phases)?;
+    let p = s.phase_threshold.len() as u64;
+    put(&mut npz, "phase_threshold", &[p], &s.phase_threshold)?;
     put(&mut npz, "alpha", &[1], &[s.alpha])?;
     put(&mut npz, "scale", &[s.state_dim as u64], &s.scale)?;
+    npz.strings("scale_origin", s.scale_origin.iter().map(|o| o.label()))?;
     npz.strings("model_fingerprint", std::iter::once(key.model.as_str()))?;
     npz.strings("data_fingerprint", std::iter::once(key.data.as_str()))?;
     let sum = checksum(&steps.t, s, key);
@@ -200,6 +209,15 @@ fn checksum(t: &[i64], s: &RoundScores, key: &ScoresKey) -> String {
     floats(&mut h, &[s.threshold]);
     h.update(s.alpha.to_le_bytes());
     floats(&mut h, &s.scale);
+    s.phase_start
+        .iter()
+        .for_each(|&p| h.update((p as u64).to_le_bytes()));
+    floats(&mut h, &s.phase_threshold);
+    for o in &s.scale_origin {
+        let label = o.label();
+        h.update((label.len() as u64).to_le_bytes());
+        h.update(label.as_bytes());
+    }
     h.finalize()[..8]
         .iter()
         .map(|b| format!("{b:02x}"))
@@ -257,6 +275,52 @@ impl<R: Read + Seek> Reader<R> {
                 format!("array `{name}` holds numbers, not text"),
             )),
         }
+    }
+}
+
+impl<R: Read + Seek> Reader<R> {
+    fn phase_count(&mut self) -> Result<u64, NoveltyError> {
+        let a = self
+            .src
+            .array("phase_start")
+            .map_err(|e| store_err(&self.path, e))?;
+        a.and_then(|a| a.shape.first().copied()).ok_or_else(|| {
+            store_err(
+                &self.path,
+                "array `phase_start` is missing; score the round again",
+            )
+        })
+    }
+
+    fn phase_starts(&mut self) -> Result<Vec<usize>, NoveltyError> {
+        let p = self.phase_count()?;
+        let v = self.floats("phase_start", &[p])?;
+        if v.first() != Some(&0.0) || v.windows(2).any(|w| w[0] >= w[1]) {
+            return Err(store_err(
+                &self.path,
+                "array `phase_start` must start at 0 and increase",
+            ));
+        }
+        Ok(v.into_iter().map(|x| x as usize).collect())
+    }
+
+    fn origins(&mut self, d: u64) -> Result<Vec<ScaleOrigin>, NoveltyError> {
+        let Values::Text(v) = self.array("scale_origin", &[d])?.values else {
+            return Err(store_err(
+                &self.path,
+                "array `scale_origin` holds numbers, not text",
+            ));
+        };
+        v.iter()
+            .map(|s| {
+                ScaleOrigin::from_label(s).ok_or_else(|| {
+                    store_err(
+                        &self.path,
+                        format!("array `scale_origin`: unknown origin `{s}`"),
+                    )
+                })
+            })
+            .collect()
     }
 }
 
@@ -397,7 +461,55 @@ fn read_scores<R: Read + Seek>(
             .map(|x| x as u32)
             .collect(),
         threshold: r.f32s("threshold", &[1])?[0],
+        phase_start: r.phase_starts()?,
+        phase_threshold: {
+            let p = r.phase_count()?;
+            r.f32s("phase_threshold", &[p])?
+        },
         alpha: r.floats("alpha", &[1])?[0],
         scale: r.f32s("scale", &[d])?,
+        scale_origin: r.origins(d)?,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn scores() -> RoundScores {
+        RoundScores {
+            state_dim: 2,
+            k: 1,
+            novelty: vec![0.5],
+            p_value: vec![0.5],
+            flagged: vec![false],
+            contributions: vec![0.5, 0.5],
+            threshold: 1.0,
+            phase_start: vec![0, 4],
+            phase_threshold: vec![2.0, 1.0],
+            alpha: 0.1,
+            scale: vec![1.0, 2.0],
+            scale_origin: vec![ScaleOrigin::Mad, ScaleOrigin::Iqr],
+            ..RoundScores::default()
+        }
+    }
+
+    #[test]
+    fn the_checksum_covers_the_phases_and_the_scale_origins() {
+        let key = ScoresKey {
+            model: "m".into(),
+            data: "d".into(),
+        };
+        let base = checksum(&[0], &scores(), &key);
+        let mut s = scores();
+        s.phase_threshold[0] = 2.5;
+        assert_ne!(checksum(&[0], &s, &key), base, "phase_threshold");
+        let mut s = scores();
+        s.phase_start[1] = 5;
+        assert_ne!(checksum(&[0], &s, &key), base, "phase_start");
+        let mut s = scores();
+        s.scale_origin[1] = ScaleOrigin::StdDev;
+        assert_ne!(checksum(&[0], &s, &key), base, "scale_origin");
+        assert_eq!(checksum(&[0], &scores(), &key), base);
+    }
 }

@@ -154,6 +154,7 @@ pub fn spec(dim: usize, action_dim: usize) -> Spec {
                 name: format!("f{j}"),
                 unit: String::new(),
                 scale: None,
+                kind: Default::default(),
             })
             .collect(),
         actions: (0..action_dim)
@@ -167,6 +168,7 @@ pub fn spec(dim: usize, action_dim: usize) -> Spec {
             })
             .collect(),
         position: None,
+        outcomes: Vec::new(),
     }
 }
 

@@ -8,6 +8,7 @@
 pub mod brief;
 pub mod episodes;
 pub mod excursions;
+pub mod failure;
 pub mod kcenter;
 pub mod plan;
 pub mod store;

@@ -10,8 +10,8 @@
 //! and peaks is spent on the excursions' least covered steps instead of being left unused.
 //!
 //! **Priority.** `priority = sum of the reasons' weights + 0.25 * min(novelty / threshold, 4) / 4`,
-//! with weights onset 1.0, before intervention 0.7, peak 0.4, action gap 0.3, inside an
-//! excursion 0.1: an onset outranks
+//! with weights onset 1.0, before intervention 0.7, peak 0.4, action gap 0.3, before a failure
+//! 0.2 (at most a quarter of the budget, see [`super::failure`]), inside an excursion 0.1: an onset outranks
 //! any single other reason however novel, then come the moments before a takeover, and among
 //! equals the more novel step.
 //!
@@ -34,6 +34,7 @@
 use std::collections::BTreeMap;
 
 use super::excursions::{ExcursionSettings, excursions};
+use super::failure::failure_candidates;
 use super::kcenter::Cover;
 use crate::campaign::StepTable;
 use crate::novelty::RoundScores;
@@ -51,6 +52,8 @@ pub enum Reason {
     ActionGap,
     /// A flagged step inside an excursion (a filler: chosen only when the others are spent).
     InsideExcursion,
+    /// One of the steps before an episode ended in a failure (see [`super::failure`]).
+    BeforeFailure,
 }
 
 impl Reason {
@@ -62,6 +65,7 @@ impl Reason {
             Reason::ExcursionPeak => 0.4,
             Reason::ActionGap => 0.3,
             Reason::InsideExcursion => 0.1,
+            Reason::BeforeFailure => 0.2,
         }
     }
 
@@ -73,6 +77,7 @@ impl Reason {
             Reason::BeforeIntervention => "before-intervention",
             Reason::ActionGap => "action-gap",
             Reason::InsideExcursion => "inside-excursion",
+            Reason::BeforeFailure => "before-failure",
         }
     }
 }
@@ -101,6 +106,11 @@ pub struct PlanSettings {
     pub fill: bool,
     /// How excursions are found.
     pub excursion: ExcursionSettings,
+    /// Outcomes (indices into the spec's outcome list) that are failures; empty: none.
+    pub failures: Vec<u32>,
+    /// Steps before a failed episode's end that are candidates (see [`super::failure`]); 0
+    /// (the default) leaves them out: on the orchard study a window of 20 cost departures.
+    pub before_failure: usize,
 }
 
 impl Default for PlanSettings {
@@ -114,6 +124,8 @@ impl Default for PlanSettings {
             min_distance: 0.0,
             fill: true,
             excursion: ExcursionSettings::default(),
+            failures: Vec::new(),
+            before_failure: 0,
         }
     }
 }
@@ -230,6 +242,10 @@ fn candidate_reasons(
     }
     for r in gaps {
         m.entry(r).or_default().push(Reason::ActionGap);
+    }
+    let failed = failure_candidates(steps, &s.failures, s.before_failure, s.budget);
+    for r in failed {
+        m.entry(r).or_default().push(Reason::BeforeFailure);
     }
     m
 }

@@ -59,6 +59,7 @@ pub fn demo_spec() -> Spec {
             name: name.to_string(),
             unit: unit.to_string(),
             scale: Some(scale),
+            kind: Default::default(),
         })
         .collect();
     let channel = |name: &str, unit: &str, low: f64, high: f64| ActionChannel {
@@ -73,6 +74,7 @@ pub fn demo_spec() -> Spec {
             channel("accel", "m/s^2", ACCEL_MIN, ACCEL_MAX),
         ],
         position: Some([FEATURE_NAMES[LATERAL].into(), FEATURE_NAMES[HEADING].into()]),
+        outcomes: Vec::new(),
     }
 }
 

@@ -19,7 +19,7 @@ use super::frames::{encode_png, render_frame};
 use super::scenario::{DemoConfig, DemoRun, EpisodeRun, departure_share, simulate_demo};
 use crate::campaign::spec::{CampaignFile, NoveltySettings, Spec};
 use crate::campaign::steps::{StepRow, StepTable, StepTableBuilder};
-use crate::campaign::write::{write_csv, write_jsonl, write_npz};
+use crate::campaign::write::{write_csv, write_jsonl, write_npz_with_outcomes};
 use crate::progress::Progress;
 
 /// Why the demo campaign could not be written.
@@ -107,7 +107,9 @@ pub fn write_demo_campaign(
     })?;
     if !tail.is_empty() {
         let r2b = table(tail, "", 0, true);
-        write_file(dir, "rounds/2/takeover.npz", |w| write_npz(&r2b, w))?;
+        write_file(dir, "rounds/2/takeover.npz", |w| {
+            write_npz_with_outcomes(&r2b, Some(&spec), w)
+        })?;
     }
     let frames = write_frames(dir, cfg, &run, progress)?;
     Ok(summary(&run, frames))
@@ -176,7 +178,8 @@ fn q(v: f64) -> f32 {
 /// The step table of a set of episodes (values rounded to 4 decimals); the
 /// `frame_episodes` episodes that strayed furthest from the centreline (see
 /// [`framed_episodes`]) reference frames under `frame_dir` (relative to the campaign folder);
-/// `flags` records every step's intervention flag.
+/// `flags` records every step's intervention flag. Each episode's outcome is `failure` when
+/// the rover left the lane, else `success` (the spec's default outcomes).
 pub fn table(
     runs: &[EpisodeRun],
     frame_dir: &str,
@@ -200,10 +203,17 @@ pub fn table(
                 intervention: flags.then_some(s.intervention),
                 samples: &samples,
                 origin: 0,
+                ..Default::default()
             });
         }
     }
-    b.finish()
+    let mut t = b.finish();
+    t.outcomes = runs
+        .iter()
+        .filter(|r| !r.steps.is_empty())
+        .map(|r| Some(u32::from(r.metrics.left_lane)))
+        .collect();
+    t
 }
 
 /// Which episodes get frames: the `n` with the largest `|lateral_offset|` (ties by order),

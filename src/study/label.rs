@@ -226,6 +226,8 @@ impl StrategyRun {
                 let settings = PlanSettings {
                     budget,
                     min_gap: 3,
+                    failures: c.spec().failure_indices(),
+                    before_failure: cfg.before_failure,
                     ..PlanSettings::default()
                 };
                 let l = plan(steps, &scores, &self.corrected, &settings);

@@ -32,6 +32,7 @@ pub use crate::sim::model::{LearnerKind, Model};
 pub use report::{write_csv, write_plot};
 
 use crate::progress::Progress;
+use crate::review::PlanSettings;
 use crate::sim::{DemoConfig, EpisodeRun, RolloutConfig};
 
 /// A labelling strategy.
@@ -95,6 +96,8 @@ pub struct StudyConfig {
     /// Steering noise injected while the expert drives demonstrations (rad; DART, see
     /// [`DemoConfig::demo_steer_noise`]).
     pub demo_steer_noise: f64,
+    /// Steps before a failed episode's end that the review list may choose (0: none).
+    pub before_failure: usize,
 }
 
 impl Default for StudyConfig {
@@ -110,6 +113,7 @@ impl Default for StudyConfig {
             strategies: Strategy::ALL.to_vec(),
             learner: LearnerKind::Rbf,
             demo_steer_noise: DemoConfig::default().demo_steer_noise,
+            before_failure: PlanSettings::default().before_failure,
         }
     }
 }

@@ -62,3 +62,6 @@ with zipfile.ZipFile(here / "npz_long_strings.npz", "w", zipfile.ZIP_DEFLATED) a
         if key != "episode":
             put(z, key + ".npy", _save(arr))
     put(z, "episode.npy", npy("<U100000", "(2,)", b""))
+
+# Outcomes: `outcome` must hold names, not numbers (written with numpy 2.4.6).
+np.savez(here / "npz_outcome_numbers.npz", **{**ok, "outcome": np.array([0, 1])})

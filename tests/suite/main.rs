@@ -11,6 +11,7 @@ mod common;
 
 mod bad_inputs;
 mod calibration;
+mod calibration_phases;
 mod cli_batch;
 mod cli_corrections;
 #[cfg(feature = "gui")]
@@ -37,6 +38,7 @@ mod long_sitting;
 mod notices;
 mod novelty_knn;
 mod numpy_memory;
+mod outcomes;
 mod plotting;
 mod properties;
 mod review_plan;
@@ -44,9 +46,11 @@ mod review_sitting;
 mod ridge_fixture;
 mod safety_caution;
 mod saved_scores;
+mod scale_fixture;
 mod shared_folder;
 mod sim_closed_loop;
 mod study;
+mod trend;
 #[cfg(feature = "gui")]
 mod ui_sitting;
 #[cfg(feature = "gui")]

@@ -77,6 +77,7 @@ fn spec(d: usize) -> Spec {
                 name: format!("f{i}"),
                 unit: String::new(),
                 scale: None,
+                kind: Default::default(),
             })
             .collect(),
         actions: vec![ActionChannel {
@@ -88,6 +89,7 @@ fn spec(d: usize) -> Spec {
             },
         }],
         position: None,
+        outcomes: Vec::new(),
     }
 }
 

@@ -5,6 +5,7 @@ use std::path::Path;
 
 use super::super::accept::{RowMeta, accept};
 use super::super::error::{Location, ProblemKind, ProblemLog};
+use super::super::outcome::RawOutcome;
 use super::super::steps::StepTableBuilder;
 use super::super::validate::{RawValue, RowChecker, resolve_frame};
 use super::{ArraySource, ArrayStream, ValueKind, oversized};
@@ -19,6 +20,9 @@ struct Columns {
     intervention: Option<ArrayStream>,
     frame: Option<ArrayStream>,
     samples: Option<ArrayStream>,
+    reward: Option<ArrayStream>,
+    cost: Option<ArrayStream>,
+    outcome: Option<ArrayStream>,
 }
 
 /// Opens the named array after checking its declared shape against the cap and the spec;
@@ -69,6 +73,9 @@ fn open_all(
     let intervention = get("intervention", false, log).ok()?;
     let frame = get("frame", false, log).ok()?;
     let samples = get("samples", false, log).ok()?;
+    let reward = get("reward", false, log).ok()?;
+    let cost = get("cost", false, log).ok()?;
+    let outcome = get("outcome", false, log).ok()?;
     Some(Columns {
         states: states?,
         actions: actions?,
@@ -77,6 +84,9 @@ fn open_all(
         intervention,
         frame,
         samples,
+        reward,
+        cost,
+        outcome,
     })
 }
 
@@ -108,6 +118,10 @@ fn shapes_fit(c: &Columns, d: usize, a: usize, log: &mut ProblemLog) -> bool {
                 "t" => "`t` must be an integer array".to_string(),
                 "episode" => "`episode` must be integers or strings".to_string(),
                 "frame" => "`frame` must be strings".to_string(),
+                "outcome" => {
+                    "`outcome` must be a string array (empty strings for none)".to_string()
+                }
+                "reward" | "cost" => format!("`{name}` must be a number array (NaN for none)"),
                 _ => format!("`{name}` must be numbers"),
             };
             log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
@@ -143,6 +157,14 @@ fn shapes_fit(c: &Columns, d: usize, a: usize, log: &mut ProblemLog) -> bool {
             &[Float, Integer],
         );
     }
+    for (name, x) in [("reward", &c.reward), ("cost", &c.cost)] {
+        if let Some(x) = x {
+            want(name, x, &[Some(n)], &[Float, Integer]);
+        }
+    }
+    if let Some(x) = &c.outcome {
+        want("outcome", x, &[Some(n)], &[Text]);
+    }
     ok
 }
 
@@ -153,6 +175,9 @@ struct Row {
     t: i64,
     intervention: Option<bool>,
     frame: Option<String>,
+    reward: Option<f64>,
+    cost: Option<f64>,
+    outcome: Option<String>,
 }
 
 fn read_row(
@@ -192,11 +217,25 @@ fn read_row(
         Some(x) => Some(x.text().map_err(|e| ("frame", e))?),
         None => None,
     };
+    let number = |s: &mut Option<ArrayStream>, name: &'static str| match s {
+        Some(x) => x.number().map(Some).map_err(|e| (name, e)),
+        None => Ok(None),
+    };
+    // NaN and empty strings give none.
+    let reward = number(&mut c.reward, "reward")?.filter(|x| !x.is_nan());
+    let cost = number(&mut c.cost, "cost")?.filter(|x| !x.is_nan());
+    let outcome = match &mut c.outcome {
+        Some(x) => Some(x.text().map_err(|e| ("outcome", e))?),
+        None => None,
+    };
     Ok(Row {
         episode,
         t,
         intervention,
         frame: frame.filter(|f| !f.is_empty()),
+        reward,
+        cost,
+        outcome,
     })
 }
 
@@ -250,7 +289,14 @@ pub fn read_numpy(
                 return;
             }
         };
-        if !check_row(checker, &mut buf, a, log, at) {
+        let mut ok = check_row(checker, &mut buf, a, log, at);
+        let raw = RawOutcome {
+            reward: row.reward,
+            cost: row.cost,
+            outcome: row.outcome.as_deref(),
+        };
+        ok &= checker.outcome(raw, log, at);
+        if !ok {
             continue;
         }
         let frame = match row.frame.as_deref().map(|f| resolve_frame(data_dir, f)) {
@@ -310,6 +356,9 @@ fn finish(c: Columns, log: &mut ProblemLog) {
         ("intervention", c.intervention),
         ("frame", c.frame),
         ("samples", c.samples),
+        ("reward", c.reward),
+        ("cost", c.cost),
+        ("outcome", c.outcome),
     ];
     for (name, s) in all {
         if let Some(Err(msg)) = s.map(ArrayStream::finish) {

@@ -22,6 +22,7 @@ pub fn spec() -> Spec {
         name: n.into(),
         unit: u.into(),
         scale: None,
+        kind: Default::default(),
     };
     Spec {
         features: vec![f("x", "m"), f("y", "m"), f("heading", "rad")],
@@ -43,6 +44,7 @@ pub fn spec() -> Spec {
             },
         ],
         position: Some(["x".into(), "y".into()]),
+        outcomes: Vec::new(),
     }
 }
 

@@ -19,16 +19,19 @@ pub fn small_spec() -> Spec {
                 name: "offset".into(),
                 unit: "m".into(),
                 scale: None,
+                kind: Default::default(),
             },
             Feature {
                 name: "angle".into(),
                 unit: "rad".into(),
                 scale: Some(0.2),
+                kind: Default::default(),
             },
             Feature {
                 name: "speed".into(),
                 unit: "m/s".into(),
                 scale: None,
+                kind: Default::default(),
             },
         ],
         actions: vec![
@@ -49,6 +52,7 @@ pub fn small_spec() -> Spec {
             },
         ],
         position: Some(["offset".into(), "angle".into()]),
+        outcomes: Vec::new(),
     }
 }
 
@@ -92,6 +96,7 @@ pub fn awkward_table(episodes: usize, len: usize, with_extras: bool) -> StepTabl
                 intervention: with_extras.then_some(i % 5 == 4),
                 samples: &samples,
                 origin: 0,
+                ..Default::default()
             });
         }
     }

@@ -13,6 +13,7 @@ pub fn spec() -> Spec {
         name: name.into(),
         unit: unit.into(),
         scale: None,
+        kind: Default::default(),
     };
     Spec {
         features: vec![
@@ -39,6 +40,7 @@ pub fn spec() -> Spec {
             },
         ],
         position: Some(["x".into(), "y".into()]),
+        outcomes: Vec::new(),
     }
 }
 
