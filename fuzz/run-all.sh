@@ -12,7 +12,7 @@
 set -euo pipefail
 cd "$(dirname "$0")"
 secs=${1:-15}
-targets=(spec jsonl csv npy npz ledger ledger_append frame)
+targets=(spec jsonl csv npy npz ledger ledger_append frame scores)
 target_dir=${COUNTERSTEER_FUZZ_TARGET_DIR:-$(cd .. && pwd)/target}
 
 export RUSTC_WRAPPER="$PWD/instrument.sh"

@@ -11,6 +11,7 @@
 use std::io::Cursor;
 use std::path::Path;
 
+use crate::campaign::Episode;
 use crate::campaign::csv::read_csv;
 use crate::campaign::error::{Location, ProblemLog};
 use crate::campaign::folder::parse_campaign_file;
@@ -21,6 +22,8 @@ use crate::campaign::steps::StepTableBuilder;
 use crate::campaign::validate::RowChecker;
 use crate::campaign::{Problem, Spec, StepTable};
 use crate::ledger::{Entry, parse_ledger};
+use crate::novelty::RoundScores;
+use crate::novelty::store::{ScoresKey, load_scores_from, write_npz};
 
 mod ledger_append;
 
@@ -171,5 +174,96 @@ pub fn ledger(data: &[u8]) {
 pub fn frame(data: &[u8]) {
     if let Ok(img) = decode_frame_bytes(data) {
         assert!(img.width() <= MAX_DECODE_SIDE && img.height() <= MAX_DECODE_SIDE);
+    }
+}
+
+/// The round every scores archive is fuzzed against: three steps of one episode, three
+/// features and two action channels.
+fn scores_steps() -> StepTable {
+    StepTable {
+        states: (0..9).map(|i| i as f32 * 0.5).collect(),
+        actions: vec![0.0; 6],
+        t: vec![0, 1, 2],
+        episodes: vec![Episode {
+            name: "e".into(),
+            start: 0,
+            len: 3,
+            source: 0,
+        }],
+        origins: vec![1, 2, 3],
+        ..StepTable::new(3, 2)
+    }
+}
+
+/// A valid scores archive of the fuzzing round (k = 2): the `scores` target's seed.
+pub fn scores_example() -> Vec<u8> {
+    let s = RoundScores {
+        state_dim: 3,
+        action_dim: 2,
+        k: 2,
+        novelty: vec![0.1, 0.2, 0.3],
+        p_value: vec![0.5, 0.2, 0.05],
+        flagged: vec![false, false, true],
+        contributions: vec![0.2, 0.3, 0.5, 0.1, 0.1, 0.8, 1.0, 0.0, 0.0],
+        action_gap: vec![0.0, 0.1, 0.4],
+        neighbour_action: vec![0.0, 1.0, 0.1, 1.0, 0.2, 2.0],
+        neighbour_spread: vec![0.0; 3],
+        ensemble_spread: vec![f32::NAN; 3],
+        neighbours: vec![0, 1, 1, 2, 2, 1],
+        threshold: 0.25,
+        alpha: 0.05,
+        scale: vec![1.0; 3],
+    };
+    let key = ScoresKey {
+        model: "0123456789abcdef".into(),
+        data: "fedcba9876543210".into(),
+    };
+    let mut out = Cursor::new(Vec::new());
+    match write_npz(&scores_steps(), &s, &key, &mut out) {
+        Ok(()) => out.into_inner(),
+        Err(e) => panic!("writing to memory failed: {e}"),
+    }
+}
+
+/// `scores.npz` bytes, as `plan` and the window read them: whatever they hold, scores read
+/// back fit the round (one value or block per step) and never come from a damaged file.
+pub fn scores(data: &[u8]) {
+    let steps = scores_steps();
+    if let Ok((s, _)) = load_scores_from(Cursor::new(data), &steps) {
+        let n = steps.len();
+        for v in [&s.novelty, &s.p_value, &s.action_gap, &s.neighbour_spread] {
+            assert_eq!(v.len(), n);
+        }
+        assert_eq!((s.flagged.len(), s.ensemble_spread.len()), (n, n));
+        assert_eq!(s.contributions.len(), n * 3);
+        assert_eq!(s.neighbour_action.len(), n * 2);
+        assert_eq!(s.neighbours.len(), n * s.k);
+        assert_eq!(s.scale.len(), 3);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn the_scores_seed_reads_back_and_a_damaged_copy_does_not() {
+        let good = super::scores_example();
+        let (s, key) = super::load_scores_from(std::io::Cursor::new(&good), &super::scores_steps())
+            .unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!((s.k, key.model.as_str()), (2, "0123456789abcdef"));
+        // The last byte of the novelty values, changed: the member's CRC-32 fails.
+        let at = good
+            .windows(11)
+            .position(|w| w == b"novelty.npy")
+            .unwrap_or(0);
+        let magic = at
+            + good[at..]
+                .windows(6)
+                .position(|w| w == b"\x93NUMPY")
+                .unwrap_or(0);
+        let data = magic + 10 + usize::from(u16::from_le_bytes([good[magic + 8], good[magic + 9]]));
+        let mut bad = good.clone();
+        bad[data + 11] ^= 0x40;
+        let e = super::load_scores_from(std::io::Cursor::new(&bad), &super::scores_steps());
+        assert!(e.is_err());
     }
 }

@@ -113,12 +113,21 @@ def fresh_flag_rates(ctx):
                 rest=float(s["flagged"][~early].mean()), overall=float(s["flagged"].mean()))
 
 
+def default_out(task_name, exe):
+    import hashlib
+
+    tag = hashlib.sha256(str(exe).encode()).hexdigest()[:8]
+    return Path(__file__).parent / "results" / f"{task_name}-{tag}"
+
+
 def main(argv=None):
     p = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawTextHelpFormatter)
     p.add_argument("task", choices=sorted(TASKS))
     p.add_argument("--countersteer", default="target/release/countersteer",
                    help="the countersteer binary to measure (default: %(default)s)")
-    p.add_argument("--out", default=None, help="results folder (default: bench/tasks/results/TASK)")
+    p.add_argument("--out", default=None,
+                   help="results folder (default: results/TASK-<tag of the binary's path>, so "
+                        "runs of different binaries never share a folder)")
     p.add_argument("--quick", action="store_true", help="a smoke run: few episodes, one learner")
     p.add_argument("--learners", nargs="*", choices=learners.LEARNERS)
     p.add_argument("--budgets", nargs="*", type=float, default=[0.01, 0.05])
@@ -131,15 +140,22 @@ def main(argv=None):
     p.add_argument("--weights", choices=["ignore", "use"], default="ignore",
                    help="fit with the export's `weight` column (when present) or ignore it")
     p.add_argument("--keep", action="store_true", help="keep the campaign folders")
+    p.add_argument("--report-only", action="store_true",
+                   help="print the table and redraw the figure from the results folder's episodes.csv")
     args = p.parse_args(argv)
+    if args.report_only:
+        out = Path(args.out or default_out(args.task, Path(args.countersteer).resolve()))
+        return report_only(TASKS[args.task], out.resolve())
     exe = Path(args.countersteer).resolve()
     if not exe.is_file():
         sys.exit(f"no countersteer binary at {exe}; build it (cargo build --release) or pass "
                  "--countersteer PATH")
     task = TASKS[args.task]
     cfg = settings(args)
-    out = Path(args.out or Path(__file__).parent / "results" / task.name).resolve()
-    shutil.rmtree(out / "campaigns", ignore_errors=True)
+    out = Path(args.out or default_out(task.name, exe)).resolve()
+    if (out / "campaigns").exists():
+        sys.exit(f"{out / 'campaigns'} exists: another run is using {out}, or a stopped run left "
+                 "it (remove it, or pass --out)")
     out.mkdir(parents=True, exist_ok=True)
     started = time.time()
     print(f"caution: {CAUTION}", file=sys.stderr)
@@ -173,19 +189,39 @@ def main(argv=None):
                 rows += [dict(r, budget=f) for r in got]
             print(f"  {learner} {strategy} {frac} seed {seed}: {time.time() - t0:.1f} s",
                   file=sys.stderr)
-    summary = report.summarise(rows, STRATEGIES)
-    report.print_table(task, summary)
+            report.write_csv(out / "episodes.csv", rows)  # kept as the runs finish
+    finish(task, out, rows, started, exe)
     print(f"expert on the evaluation seeds: success {expert_ev.success.mean():.3f}, "
           f"mean return {expert_ev.returns.mean():.1f}")
     print(f"fresh expert episodes scored as a round (alpha {fresh['alpha']}): flagged "
           f"{fresh['first10']:.3f} in the first 10 steps, {fresh['rest']:.3f} after, "
           f"{fresh['overall']:.3f} overall")
+    if not args.keep:
+        shutil.rmtree(out / "campaigns", ignore_errors=True)
+
+
+def finish(task, out, rows, started, exe):
+    """Prints the table and writes the CSV files and the figure."""
+    summary = report.summarise(rows, STRATEGIES)
+    report.print_table(task, summary)
     report.write_csv(out / "episodes.csv", rows)
     report.write_csv(out / "summary.csv", summary)
     report.figure(out / "success.png", task, summary, STRATEGIES)
     print(f"wrote {out / 'episodes.csv'}, {out / 'summary.csv'}, {out / 'success.png'} "
           f"({time.time() - started:.0f} s; countersteer {exe})")
-    shutil.rmtree(out / "campaigns", ignore_errors=True) if not args.keep else None
+
+
+def report_only(task, out):
+    """Tables and figure again from a results folder's episodes.csv (e.g. of a stopped run)."""
+    import csv
+
+    with open(out / "episodes.csv") as f:
+        rows = list(csv.DictReader(f))
+    for r in rows:
+        r["budget"] = float(r["budget"])
+        r["sel_seed"], r["round"], r["labels"] = int(r["sel_seed"]), int(r["round"]), int(r["labels"])
+        r["success"], r["return"] = int(r["success"]), float(r["return"])
+    finish(task, out, rows, time.time(), "(from episodes.csv)")
 
 
 if __name__ == "__main__":

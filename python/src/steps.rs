@@ -12,12 +12,12 @@ use countersteer::campaign::{Campaign, StepTable};
 use countersteer::consensus::tally as tally_of;
 use countersteer::export::{ExportOptions, Format, Weighting, read_merged};
 use countersteer::ledger::read_ledgers;
-use countersteer::novelty::store::{load_scores, save_scores as save, scores_path};
+use countersteer::novelty::store::{ScoresKey, save_scores as save};
 use countersteer::novelty::{RoundScores, build_model, score_round};
 use countersteer::progress::Progress;
-use countersteer::review::sitting::judgements;
 use countersteer::review::store::save_review_list;
 use countersteer::review::{PlanSettings, plan as plan_list, states_of_rows};
+use countersteer::workflow::{AnalysisOptions, WorkflowError, analyse};
 
 use crate::convert::{self, matrix, rows, values, vector};
 use crate::errors;
@@ -83,7 +83,7 @@ pub fn score<'py>(
             let model = build_model(&c, &p)?;
             let s = score_round(&model, &c, steps, &p)?;
             if save {
-                self::save(&c.root, round, steps, &s)?;
+                self::save(&c.root, round, steps, &s, &ScoresKey::of(&c, steps))?;
             }
             Ok(s)
         },
@@ -108,44 +108,36 @@ pub fn save_scores(
         return Err(errors::usage("scores", msg));
     }
     let path = py
-        .detach(|| save(&c.root, round, steps, &s))
+        .detach(|| save(&c.root, round, steps, &s, &ScoresKey::of(&c, steps)))
         .map_err(errors::novelty)?;
     Ok(path.display().to_string())
 }
 
-/// Saved scores when they fit the round and the campaign's settings, else scored now and
-/// saved (the rule of `countersteer plan`).
+/// The round's scores through the library's pipeline driver, as `countersteer plan` obtains
+/// them: the saved scores under their one reuse rule, else scored now and saved.
 fn scores_for(
     c: &Campaign,
     round: u32,
-    steps: &StepTable,
     rescore: bool,
 ) -> Result<RoundScores, countersteer::novelty::NoveltyError> {
-    if !rescore && scores_path(&c.root, round).is_file() {
-        if let Ok(s) = load_scores(&c.root, round, steps) {
-            let k = c.file.novelty.k.min(c.demonstrations.len());
-            if s.k == k && s.alpha == c.file.novelty.alpha {
-                return Ok(s);
-            }
-        }
+    let options = AnalysisOptions {
+        rescore,
+        save: true,
+        ..Default::default()
+    };
+    match analyse(c, round, options, &Progress::new()) {
+        Ok(a) => Ok(a.scores),
+        Err(WorkflowError::Novelty(e)) => Err(e),
+        // The round was found before; no other failure comes from obtaining scores.
+        Err(e) => Err(countersteer::novelty::NoveltyError::Index(e.to_string())),
     }
-    let p = Progress::new();
-    let model = build_model(c, &p)?;
-    let s = score_round(&model, c, steps, &p)?;
-    save(&c.root, round, steps, &s)?;
-    Ok(s)
 }
 
 fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> PyResult<Vec<usize>> {
     let ledgers = read_ledgers(&c.root).map_err(errors::ledger)?;
-    let mut rows: Vec<usize> = ledgers
-        .iter()
-        .flat_map(|l| judgements(steps, round, &l.records))
-        .map(|j| j.row)
-        .collect();
-    rows.sort_unstable();
-    rows.dedup();
-    Ok(rows)
+    Ok(countersteer::workflow::judged_rows(
+        steps, round, &ledgers, None,
+    ))
 }
 
 /// Plans a round's review list (as `countersteer plan`, which it saves the same way):
@@ -180,7 +172,7 @@ pub fn plan<'py>(
     };
     let list = py
         .detach(|| -> Result<_, countersteer::novelty::NoveltyError> {
-            let s = scores_for(&c, round, steps, rescore)?;
+            let s = scores_for(&c, round, rescore)?;
             let list = plan_list(steps, &s, &states_of_rows(steps, &judged), &settings);
             save_review_list(&c.root, round, steps, &list)?;
             Ok(list)

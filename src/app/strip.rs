@@ -156,7 +156,16 @@ fn plots_ui(wb: &Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
     let h = ui.available_height();
     let signals = wb.ui.round.and_then(|r| wb.signals.for_round(r));
     let novelty_h = (h * if signals.is_some() { 0.42 } else { 0.22 }).max(50.0);
-    let channel_h = ((h - novelty_h - 22.0) / channels.max(1) as f32 - 20.0).max(36.0);
+    // What is not a plot, from the style: the legend row, and a caption line above each
+    // channel plot, each with the spacing after it (one pixel spare against rounding: a
+    // panel grows to whatever its contents need, frame after frame).
+    let gap = ui.spacing().item_spacing.y;
+    let line = ui.text_style_height(&egui::TextStyle::Small);
+    // A horizontal row is at least one widget tall.
+    let legend = line.max(ui.spacing().interact_size.y) + gap;
+    let per_channel = line + 2.0 * gap;
+    let rest = h - novelty_h - legend - gap - 1.0;
+    let channel_h = (rest / channels.max(1) as f32 - per_channel).max(36.0);
     let s = &wb.series;
     legend_ui(ui);
     // Bounds by `include_y`, never by setting them: set bounds would switch auto-bounds off for

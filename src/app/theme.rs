@@ -77,11 +77,11 @@ pub fn fonts() -> FontDefinitions {
 pub fn style(style: &mut egui::Style) {
     use FontFamily::{Monospace, Proportional};
     style.text_styles = [
-        (TextStyle::Heading, FontId::new(17.0, Proportional)),
-        (TextStyle::Body, FontId::new(13.5, Proportional)),
-        (TextStyle::Button, FontId::new(13.5, Proportional)),
+        (TextStyle::Heading, FontId::new(16.5, Proportional)),
+        (TextStyle::Body, FontId::new(13.0, Proportional)),
+        (TextStyle::Button, FontId::new(13.0, Proportional)),
         (TextStyle::Small, FontId::new(11.0, Proportional)),
-        (TextStyle::Monospace, FontId::new(13.0, Monospace)),
+        (TextStyle::Monospace, FontId::new(12.5, Monospace)),
     ]
     .into();
     let s = &mut style.spacing;

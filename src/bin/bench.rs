@@ -2,7 +2,7 @@
 //! figure beside a baseline measured in the same run. Run in release:
 //!
 //! ```text
-//! cargo run --release --features bench --bin bench -- [--runs 3] [--only w1,w2,w3,wide,plan] [--npy DIR]
+//! cargo run --release --features bench --bin bench -- [--runs 3] [--only w1,w2,w3,wide,load,plan] [--npy DIR]
 //! ```
 //!
 //! * W1: 1M demonstration states, 100k rollout steps, D = 16: build + calibrate + score.
@@ -15,6 +15,8 @@
 //!   leading axes by randomized subspace iteration); baseline: brute-force k-NN of the same
 //!   steps. `--only widejacobi` also times the former full Jacobi eigen-solver at D = 500 and
 //!   1,000 (minutes at 1,000).
+//! * load: peak memory of loading 2M demonstration steps (D = 16) from .npz beside the same
+//!   steps from JSON Lines (the baseline; target: within 1.5x).
 //! * plan: a 500-step review list from 1M scored steps; baseline: k-center over every candidate.
 //! * w1parts (only when asked for by name): W1 stage by stage, to see where the time goes.
 //!
@@ -456,6 +458,60 @@ fn wide_jacobi() {
     }
 }
 
+/// Writes a campaign folder holding only `demos`, in JSON Lines or .npz.
+fn write_load_campaign(root: &std::path::Path, demos: &StepTable, npz: bool) {
+    use countersteer::campaign::write::{write_jsonl, write_npz};
+    let c = countersteer::novelty::synth::campaign(demos.clone(), StepTable::new(16, 2), K, ALPHA);
+    std::fs::create_dir_all(root.join("demonstrations")).expect("folder");
+    let spec = serde_json::to_vec_pretty(&c.file).expect("spec");
+    std::fs::write(root.join("campaign.json"), spec).expect("campaign.json");
+    let name = if npz { "d.npz" } else { "d.jsonl" };
+    let f = std::fs::File::create(root.join("demonstrations").join(name)).expect("create");
+    let w = std::io::BufWriter::new(f);
+    if npz {
+        write_npz(demos, w).expect("npz");
+    } else {
+        write_jsonl(demos, c.spec(), "demonstrations", w).expect("jsonl");
+    }
+}
+
+fn load_bench(a: &Args) {
+    use countersteer::campaign::{LoadOptions, load_campaign};
+    println!("\n== load: 2M demonstration steps, D = 16, A = 2: peak memory of loading");
+    let dir = std::env::temp_dir().join(format!("countersteer-load-{}", std::process::id()));
+    {
+        let demos = trajectories(&SynthSpec::expert(4000, 500, 16, 1));
+        write_load_campaign(&dir.join("jsonl"), &demos, false);
+        write_load_campaign(&dir.join("npz"), &demos, true);
+    }
+    let mut peaks = [0.0f64; 2];
+    let mut secs = [vec![], vec![]];
+    for _ in 0..a.runs {
+        for (i, kind) in ["jsonl", "npz"].iter().enumerate() {
+            let before = reset_peak();
+            let (c, t) = time(|| {
+                load_campaign(&dir.join(kind), &LoadOptions::default(), &Progress::new())
+                    .expect("load")
+            });
+            peaks[i] = peaks[i].max(status_kb("VmHWM:") - before);
+            secs[i].push(t);
+            drop(c);
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    let [j, n] = [mb(peaks[0]), mb(peaks[1])];
+    println!(
+        "baseline JSON Lines          {j:8.1} MB peak  {:8.3} s",
+        median(secs[0].clone())
+    );
+    println!(
+        ".npz (streamed arrays)       {n:8.1} MB peak  {:8.3} s  ratio {:.2}: target <= 1.5: {}",
+        median(secs[1].clone()),
+        n / j,
+        verdict(n <= 1.5 * j)
+    );
+}
+
 fn plan_bench(a: &Args) {
     println!("\n== plan: 500-step review list from 1M scored steps (D = 16)");
     let demos = trajectories(&SynthSpec::expert(400, 500, 16, 1));
@@ -540,6 +596,9 @@ fn main() {
     }
     if a.only.iter().any(|o| o == "widejacobi") {
         wide_jacobi();
+    }
+    if want("load") {
+        load_bench(&a);
     }
     if want("plan") {
         plan_bench(&a);

@@ -25,17 +25,79 @@ pub fn array_name(member: &str) -> Option<&str> {
 /// An `.npz` archive being written. Call [`NpzWriter::finish`] once every array is written:
 /// it writes the archive's directory and reports any error doing so.
 pub struct NpzWriter<W: Write + Seek> {
-    zip: ZipWriter<W>,
+    zip: ZipWriter<Latch<W>>,
+}
+
+/// A writer that, once a write or seek has failed (a full disk), only counts later ones. The
+/// error has already reached the caller; without the latch, the zip writer's drop would try
+/// to finish the archive again and print its own raw error (`ZipWriter drop failed`).
+pub struct Latch<W> {
+    inner: W,
+    failed: bool,
+    /// Position of the stream as the zip writer sees it.
+    pos: u64,
+}
+
+impl<W: Write> Write for Latch<W> {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        if !self.failed {
+            match self.inner.write(buf) {
+                Ok(n) => {
+                    self.pos += n as u64;
+                    return Ok(n);
+                }
+                Err(e) => {
+                    self.failed = true;
+                    return Err(e);
+                }
+            }
+        }
+        self.pos += buf.len() as u64;
+        Ok(buf.len())
+    }
+
+    fn flush(&mut self) -> io::Result<()> {
+        if self.failed {
+            return Ok(());
+        }
+        self.inner.flush().inspect_err(|_| self.failed = true)
+    }
+}
+
+impl<W: Seek> Seek for Latch<W> {
+    fn seek(&mut self, to: io::SeekFrom) -> io::Result<u64> {
+        if !self.failed {
+            return match self.inner.seek(to) {
+                Ok(p) => {
+                    self.pos = p;
+                    Ok(p)
+                }
+                Err(e) => {
+                    self.failed = true;
+                    Err(e)
+                }
+            };
+        }
+        self.pos = match to {
+            io::SeekFrom::Start(p) => p,
+            io::SeekFrom::Current(d) | io::SeekFrom::End(d) => self.pos.saturating_add_signed(d),
+        };
+        Ok(self.pos)
+    }
 }
 
 /// npyz's writer options bound to the member [`NpzWriter::array`] started.
-pub type ArrayBuilder<'a, T, W> = WithWriter<&'a mut ZipWriter<W>, WriteOptions<T>>;
+pub type ArrayBuilder<'a, T, W> = WithWriter<&'a mut ZipWriter<Latch<W>>, WriteOptions<T>>;
 
 impl<W: Write + Seek> NpzWriter<W> {
     /// Starts an archive on `w`.
     pub fn new(w: W) -> Self {
         NpzWriter {
-            zip: ZipWriter::new(w),
+            zip: ZipWriter::new(Latch {
+                inner: w,
+                failed: false,
+                pos: 0,
+            }),
         }
     }
 
@@ -90,6 +152,10 @@ impl<W: Write + Seek> NpzWriter<W> {
 
     /// Writes the archive's directory and returns the writer.
     pub fn finish(mut self) -> io::Result<W> {
-        self.zip.finish().map_err(io::Error::from)
+        let latch = self.zip.finish().map_err(io::Error::from)?;
+        if latch.failed {
+            return Err(io::Error::other("an earlier write failed"));
+        }
+        Ok(latch.inner)
     }
 }

@@ -14,15 +14,15 @@ use std::path::Path;
 use npyz::{NpyFile, Order, TypeChar};
 
 mod header;
+mod rows;
+mod stream;
 
 pub use header::{MAX_HEADER_BYTES, MAX_HEADER_NESTING, declared_shape};
+pub use rows::read_numpy;
+pub use stream::{ArrayStream, ValueKind};
 
-use super::accept::{RowMeta, accept};
-use super::error::{Location, ProblemKind, ProblemLog};
+use super::error::ProblemKind;
 use super::npz;
-use super::steps::StepTableBuilder;
-use super::validate::{RawValue, RowChecker, resolve_frame};
-use crate::progress::Progress;
 
 /// The array names a NumPy step set may hold.
 pub const ARRAY_NAMES: [&str; 7] = [
@@ -58,18 +58,13 @@ pub struct Array {
 /// Longest accepted fixed-width string item (episode names, frame paths), in bytes.
 pub const MAX_TEXT_BYTES: u64 = 4096;
 
-/// Reads an array, refusing a declared size larger than `available` bytes.
-pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
-    let npy =
-        NpyFile::new(header::checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
-    let shape = npy.shape().to_vec();
+/// Refuses, from a header alone, a shape whose size overflows, strings longer than
+/// [`MAX_TEXT_BYTES`], zero-width items, and more data than `available` bytes hold.
+fn check_declared(shape: &[u64], ts: &npyz::TypeStr, available: u64) -> Result<(), String> {
     let count = shape
         .iter()
         .try_fold(1u64, |a, &d| a.checked_mul(d))
         .ok_or("shape overflows")?;
-    let npyz::DType::Plain(ts) = npy.dtype() else {
-        return Err("structured or nested dtypes are not supported".into());
-    };
     let item = ts.num_bytes().unwrap_or(0) as u64;
     let text = matches!(ts.type_char(), TypeChar::UnicodeStr | TypeChar::ByteStr);
     if text && item > MAX_TEXT_BYTES {
@@ -89,6 +84,19 @@ pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
             "header declares {count} values of {item} bytes but only {available} bytes follow"
         ));
     }
+    Ok(())
+}
+
+/// Reads an array, refusing a declared size larger than `available` bytes.
+pub fn read_array<R: Read>(r: R, available: u64) -> Result<Array, String> {
+    let npy =
+        NpyFile::new(header::checked_start(r)?).map_err(|e| format!("not a NumPy array: {e}"))?;
+    let shape = npy.shape().to_vec();
+    let npyz::DType::Plain(ts) = npy.dtype() else {
+        return Err("structured or nested dtypes are not supported".into());
+    };
+    check_declared(&shape, &ts, available)?;
+    let count = shape.iter().product::<u64>();
     let fortran = npy.order() == Order::Fortran;
     let size = ts.size_field();
     let e = |e: std::io::Error| format!("array data: {e}");
@@ -206,30 +214,71 @@ pub trait ArraySource {
     /// The shape the named array's header declares, reading nothing else; `Ok(None)` when
     /// absent. Lets a reader refuse an oversized array before allocating for it.
     fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String>;
+
+    /// The named array to be read value by value, `Ok(None)` when absent. By default the
+    /// array is read whole first.
+    fn stream(&mut self, name: &str) -> Result<Option<ArrayStream>, String> {
+        Ok(self.array(name)?.map(ArrayStream::whole))
+    }
 }
 
+/// Most bytes of arrays an `.npz` archive may declare per byte of the archive (plus
+/// [`EXPANSION_ALLOWANCE`]). Memory follows what is declared, so a small archive of
+/// compressed repetition (1.1 MB declaring 9.9 million rows of zeros) is refused before
+/// anything is read. Deflated real-valued data shrinks to about half; this leaves room for
+/// columns that compress far better (flags, time indices).
+pub const MAX_EXPANSION: u64 = 64;
+/// Declared bytes every archive may hold whatever its size.
+pub const EXPANSION_ALLOWANCE: u64 = 16 << 20;
+
 /// Arrays of an `.npz` archive (a file by default; any seekable reader for tests and fuzzing).
-pub struct NpzSource<R: Read + Seek = BufReader<File>>(zip::ZipArchive<R>);
+pub struct NpzSource<R: Read + Seek = BufReader<File>> {
+    zip: zip::ZipArchive<R>,
+    /// The archive's file, when opened from one: members are then streamed from it.
+    path: Option<std::path::PathBuf>,
+}
 
 impl NpzSource {
     /// Opens an archive.
     pub fn open(path: &Path) -> Result<Self, String> {
         let file = File::open(path).map_err(|e| format!("not a readable .npz archive: {e}"))?;
-        NpzSource::new(BufReader::new(file))
+        let mut src = NpzSource::new(BufReader::new(file))?;
+        src.path = Some(path.to_path_buf());
+        Ok(src)
     }
 }
 
 impl<R: Read + Seek> NpzSource<R> {
-    /// Reads an archive from any seekable reader.
-    pub fn new(r: R) -> Result<Self, String> {
-        zip::ZipArchive::new(r)
-            .map(NpzSource)
-            .map_err(|e| format!("not a readable .npz archive: {e}"))
+    /// Reads an archive from any seekable reader; refuses one that declares more than
+    /// [`MAX_EXPANSION`] times its own size in arrays.
+    pub fn new(mut r: R) -> Result<Self, String> {
+        let len = r.seek(std::io::SeekFrom::End(0)).unwrap_or(0);
+        let mut zip =
+            zip::ZipArchive::new(r).map_err(|e| format!("not a readable .npz archive: {e}"))?;
+        let mut declared = 0u64;
+        for i in 0..zip.len() {
+            let f = zip
+                .by_index_raw(i)
+                .map_err(|e| format!("not a readable .npz archive: {e}"))?;
+            declared = declared.saturating_add(f.size());
+        }
+        if declared
+            > len
+                .saturating_mul(MAX_EXPANSION)
+                .saturating_add(EXPANSION_ALLOWANCE)
+        {
+            return Err(format!(
+                "its arrays declare {declared} bytes in an archive of {len} bytes (more than \
+                 {MAX_EXPANSION} times its size): refused, since reading it would take memory \
+                 out of all proportion to the file; save it uncompressed (numpy.savez)"
+            ));
+        }
+        Ok(NpzSource { zip, path: None })
     }
 
     /// Names of the arrays in the archive.
     pub fn names(&self) -> Vec<String> {
-        self.0
+        self.zip
             .file_names()
             .filter_map(npz::array_name)
             .map(str::to_string)
@@ -238,9 +287,32 @@ impl<R: Read + Seek> NpzSource<R> {
 }
 
 impl<R: Read + Seek> ArraySource for NpzSource<R> {
+    fn stream(&mut self, name: &str) -> Result<Option<ArrayStream>, String> {
+        let member = npz::member_name(name);
+        let Some(path) = self.path.clone() else {
+            return Ok(self.array(name)?.map(ArrayStream::whole));
+        };
+        let place = match self.zip.by_name(&member) {
+            Ok(f) => stream::MemberPlace {
+                start: f.data_start(),
+                compressed: f.compressed_size(),
+                size: f.size(),
+                deflated: f.compression() == zip::CompressionMethod::Deflated,
+                crc: f.crc32(),
+            },
+            Err(zip::result::ZipError::FileNotFound) => return Ok(None),
+            Err(e) => return Err(format!("member `{member}`: {e}")),
+        };
+        match stream::member_stream(&path, place) {
+            Ok(Some(s)) => Ok(Some(s)),
+            Ok(None) => Ok(self.array(name)?.map(ArrayStream::whole)),
+            Err(e) => Err(format!("member `{member}`: {e}")),
+        }
+    }
+
     fn array(&mut self, name: &str) -> Result<Option<Array>, String> {
         let member = npz::member_name(name);
-        match self.0.by_name(&member) {
+        match self.zip.by_name(&member) {
             Ok(mut f) => {
                 let size = f.size();
                 let mut counted = Counted(&mut f, 0);
@@ -257,7 +329,7 @@ impl<R: Read + Seek> ArraySource for NpzSource<R> {
 
     fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String> {
         let member = npz::member_name(name);
-        match self.0.by_name(&member) {
+        match self.zip.by_name(&member) {
             Ok(f) => declared_shape(f)
                 .map(Some)
                 .map_err(|e| format!("member `{member}`: {e}")),
@@ -325,6 +397,18 @@ impl ArraySource for NpySetSource {
             .map_err(|e| format!("{name}.npy: {e}"))
     }
 
+    fn stream(&mut self, name: &str) -> Result<Option<ArrayStream>, String> {
+        let Some(f) = self.open(name)? else {
+            return Ok(None);
+        };
+        let size = f.metadata().map(|m| m.len()).unwrap_or(0);
+        match ArrayStream::open(BufReader::new(f), size) {
+            Ok(Some(s)) => Ok(Some(s)),
+            Ok(None) => Ok(self.array(name)?.map(ArrayStream::whole)),
+            Err(e) => Err(format!("{name}.npy: {e}")),
+        }
+    }
+
     fn shape(&mut self, name: &str) -> Result<Option<Vec<u64>>, String> {
         let Some(f) = self.open(name)? else {
             return Ok(None);
@@ -369,214 +453,4 @@ fn oversized(
         let msg = format!("shape {shape:?} declares {per_row} values per row; at most {width} fit");
         (ProblemKind::WrongDimension, msg)
     })
-}
-
-fn numbers(a: &Array) -> Vec<f64> {
-    match &a.values {
-        Values::Numbers(v) => v.clone(),
-        Values::Integers(v) => v.iter().map(|&x| x as f64).collect(),
-        Values::Text(_) => Vec::new(),
-    }
-}
-
-/// Reads one NumPy step set into the builder, reporting every fault to `log`.
-pub fn read_numpy(
-    src: &mut dyn ArraySource,
-    data_dir: &Path,
-    checker: &mut RowChecker<'_>,
-    b: &mut StepTableBuilder,
-    log: &mut ProblemLog,
-    progress: &Progress,
-) {
-    let (d, a) = (checker.spec().state_dim(), checker.spec().action_dim());
-    let cap = b.record_cap() as u64;
-    let mut refused = false;
-    let mut get = |name: &str, required: bool, log: &mut ProblemLog| {
-        if refused {
-            return None;
-        }
-        match src.shape(name) {
-            Ok(Some(shape)) => {
-                if let Some((kind, msg)) = oversized(name, &shape, cap, d, a) {
-                    log.error(kind, Location::File, name, msg);
-                    refused = true;
-                    return None;
-                }
-            }
-            Ok(None) => {
-                if required {
-                    log.error(
-                        ProblemKind::MissingColumn,
-                        Location::File,
-                        name,
-                        format!("array `{name}` is missing"),
-                    );
-                }
-                return None;
-            }
-            Err(msg) => {
-                log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
-                return None;
-            }
-        }
-        match src.array(name) {
-            Ok(arr) => arr,
-            Err(msg) => {
-                log.error(ProblemKind::MalformedNumpy, Location::File, name, msg);
-                None
-            }
-        }
-    };
-    let states = get("states", true, log);
-    let actions = get("actions", true, log);
-    let episode = get("episode", true, log);
-    let t = get("t", true, log);
-    let intervention = get("intervention", false, log);
-    let frame = get("frame", false, log);
-    let samples = get("samples", false, log);
-    let (Some(states), Some(actions), Some(episode), Some(t)) = (states, actions, episode, t)
-    else {
-        return;
-    };
-    let n = states.shape.first().copied().unwrap_or(0);
-    let mut shape_ok = true;
-    let mut want = |name: &str, arr: &Array, shape: &[Option<u64>]| {
-        let fits = arr.shape.len() == shape.len()
-            && arr
-                .shape
-                .iter()
-                .zip(shape)
-                .all(|(&g, w)| w.is_none_or(|w| w == g));
-        if !fits {
-            let w: Vec<String> = shape
-                .iter()
-                .map(|x| x.map_or("S".into(), |v| v.to_string()))
-                .collect();
-            let msg = format!(
-                "shape {:?} does not match the expected ({})",
-                arr.shape,
-                w.join(", ")
-            );
-            log.error(ProblemKind::WrongDimension, Location::File, name, msg);
-            shape_ok = false;
-        }
-    };
-    want("states", &states, &[Some(n), Some(d as u64)]);
-    want("actions", &actions, &[Some(n), Some(a as u64)]);
-    want("episode", &episode, &[Some(n)]);
-    want("t", &t, &[Some(n)]);
-    if let Some(x) = &intervention {
-        want("intervention", x, &[Some(n)]);
-    }
-    if let Some(x) = &frame {
-        want("frame", x, &[Some(n)]);
-    }
-    if let Some(x) = &samples {
-        want("samples", x, &[Some(n), None, Some(a as u64)]);
-    }
-    if !shape_ok {
-        return;
-    }
-    if n == 0 {
-        log.error(
-            ProblemKind::Empty,
-            Location::File,
-            "",
-            "the arrays hold no steps",
-        );
-        return;
-    }
-    let sv = numbers(&states);
-    let av = numbers(&actions);
-    let ts: Vec<i64> = match &t.values {
-        Values::Integers(v) => v.clone(),
-        _ => {
-            log.error(
-                ProblemKind::MalformedNumpy,
-                Location::File,
-                "t",
-                "`t` must be an integer array",
-            );
-            return;
-        }
-    };
-    let names: Vec<String> = match episode.values {
-        Values::Integers(v) => v.iter().map(i64::to_string).collect(),
-        Values::Text(v) => v,
-        Values::Numbers(_) => {
-            log.error(
-                ProblemKind::MalformedNumpy,
-                Location::File,
-                "episode",
-                "`episode` must be integers or strings",
-            );
-            return;
-        }
-    };
-    let flags = intervention.map(|x| numbers(&x));
-    let frames = frame.and_then(|x| match x.values {
-        Values::Text(v) => Some(v),
-        _ => None,
-    });
-    let s_count = samples
-        .as_ref()
-        .and_then(|x| x.shape.get(1).copied())
-        .unwrap_or(0) as usize;
-    let samples = samples.map(|x| numbers(&x));
-    let n = n as usize;
-    let mut raw: Vec<RawValue> = Vec::with_capacity(a);
-    for i in 0..n {
-        if i % 4096 == 0 {
-            progress.advance(4096);
-            if progress.is_cancelled() {
-                return;
-            }
-        }
-        let at = Location::Record(i as u64);
-        let mut ok = checker.state(sv[i * d..(i + 1) * d].iter().copied(), log, at);
-        raw.clear();
-        raw.extend(av[i * a..(i + 1) * a].iter().map(|&x| RawValue::Number(x)));
-        ok &= checker.action(raw.iter(), log, at, "actions");
-        checker.samples.clear();
-        if let Some(s) = &samples {
-            for j in 0..s_count {
-                let base = (i * s_count + j) * a;
-                raw.clear();
-                raw.extend(s[base..base + a].iter().map(|&x| RawValue::Number(x)));
-                if raw
-                    .iter()
-                    .all(|r| matches!(r, RawValue::Number(x) if x.is_nan()))
-                {
-                    continue; // an all-NaN sample row pads a step with fewer samples
-                }
-                ok &= checker.sample(raw.iter(), log, at, &format!("samples[{j}]"));
-            }
-        }
-        let frame = match frames
-            .as_ref()
-            .map(|f| f[i].as_str())
-            .filter(|f| !f.is_empty())
-        {
-            None => None,
-            Some(f) => match resolve_frame(data_dir, f) {
-                Ok(p) => Some(p),
-                Err(msg) => {
-                    log.error(ProblemKind::BadFramePath, at, "frame", msg);
-                    continue;
-                }
-            },
-        };
-        if ok {
-            let intervention = flags.as_ref().map(|f| f[i] != 0.0);
-            let meta = RowMeta {
-                episode: names[i].clone(),
-                t: ts[i],
-                frame,
-                intervention,
-            };
-            if !accept(b, log, at, meta, checker) {
-                return;
-            }
-        }
-    }
 }

@@ -168,7 +168,7 @@ fn print_open_report(report: &OpenReport, unfinished: Option<&UnfinishedBatch>) 
 /// Prints a warning for every entry of `ledgers/` that is not read as a ledger.
 pub fn warn_skipped_ledgers(root: &Path) {
     for s in countersteer::ledger::skipped_entries(root) {
-        eprintln!("warning: {s}");
+        tell!("warning: {s}");
     }
 }
 
@@ -219,7 +219,7 @@ pub fn load(dir: &Path) -> Result<Campaign, CliError> {
 
 /// Says which records of a batch interrupted by a crash are not in the ledger.
 fn print_unfinished(u: &UnfinishedBatch) {
-    eprintln!(
+    tell!(
         "note: a batch from {} was interrupted: {} of its {} records are in the ledger, {} are \
          NOT (never acknowledged; apply these lines again):",
         u.source.display(),
@@ -228,9 +228,9 @@ fn print_unfinished(u: &UnfinishedBatch) {
         u.missing.len()
     );
     for m in &u.missing {
-        eprintln!("  line {}: {} (would have been #{})", m.line, m.what, m.seq);
+        tell!("  line {}: {} (would have been #{})", m.line, m.what, m.seq);
     }
-    eprintln!("  (its journal is kept at {})", u.kept.display());
+    tell!("  (its journal is kept at {})", u.kept.display());
 }
 
 /// Runs `correct --from FILE`: reads the batch, checks it whole, appends it.
@@ -244,7 +244,7 @@ fn run_batch(a: &CorrectArgs, from: &Path) -> Result<(), CliError> {
     let done = batch::apply(&c, &mut ledger, &b).map_err(|e| {
         if let BatchError::Invalid { problems, .. } = &e {
             for p in problems {
-                eprintln!("{p}");
+                tell!("{p}");
             }
         }
         CliError::invalid(e.to_string())
@@ -252,7 +252,7 @@ fn run_batch(a: &CorrectArgs, from: &Path) -> Result<(), CliError> {
     if let Some(u) = &done.earlier_unfinished {
         print_unfinished(u);
     }
-    println!("{annotator} {} (saved)", summary(&done.records));
+    say!("{annotator} {} (saved)", summary(&done.records));
     Ok(())
 }
 

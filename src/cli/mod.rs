@@ -141,7 +141,7 @@ impl Command {
 /// Prints the safety caution on standard error, as one line (standard output stays the
 /// command's own result).
 pub fn print_caution() {
-    eprintln!("caution: {}", countersteer::SAFETY_CAUTION);
+    tell!("caution: {}", countersteer::SAFETY_CAUTION);
 }
 
 /// Without a subcommand: the workbench, or (built without the `gui` feature) a usage note.

@@ -7,7 +7,7 @@ use std::path::Path;
 
 use crate::fuzzing::{self, StepFormat};
 
-const TARGETS: [&str; 8] = [
+const TARGETS: [&str; 9] = [
     "spec",
     "jsonl",
     "csv",
@@ -16,6 +16,7 @@ const TARGETS: [&str; 8] = [
     "ledger",
     "ledger_append",
     "frame",
+    "scores",
 ];
 
 fn run(target: &str, data: &[u8]) {
@@ -24,6 +25,7 @@ fn run(target: &str, data: &[u8]) {
         "jsonl" => drop(fuzzing::steps(StepFormat::JsonLines, data)),
         "csv" => drop(fuzzing::steps(StepFormat::Csv, data)),
         "npz" => drop(fuzzing::steps(StepFormat::Npz, data)),
+        "scores" => fuzzing::scores(data),
         "npy" => fuzzing::npy(data),
         "ledger" => fuzzing::ledger(data),
         "ledger_append" => fuzzing::ledger_append(data),
@@ -73,4 +75,22 @@ fn the_seeds_are_read_as_the_corpus_says() {
     let (table, problems) = fuzzing::steps(StepFormat::JsonLines, b"{\"episode\": 1}\n");
     assert!(table.is_empty());
     assert_eq!(problems[0].field, "t");
+}
+
+#[test]
+fn the_scores_seeds_are_the_library_example_and_damaged_copies_of_it() {
+    // COUNTERSTEER_WRITE_SEEDS=1 writes them (once, when the scores layout changes).
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("fuzz/corpus/scores");
+    let good = fuzzing::scores_example();
+    if std::env::var_os("COUNTERSTEER_WRITE_SEEDS").is_some() {
+        std::fs::create_dir_all(&dir).unwrap();
+        std::fs::write(dir.join("good.npz"), &good).unwrap();
+        let mut flipped = good.clone();
+        let at = good.len() / 3;
+        flipped[at] ^= 0x10;
+        std::fs::write(dir.join("flipped.npz"), flipped).unwrap();
+        std::fs::write(dir.join("truncated.npz"), &good[..good.len() / 2]).unwrap();
+    }
+    assert_eq!(std::fs::read(dir.join("good.npz")).unwrap(), good);
+    assert!(std::fs::read(dir.join("flipped.npz")).unwrap() != good);
 }

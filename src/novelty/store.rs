@@ -31,7 +31,7 @@
 //! scoring again is decided in one place, [`reusable_scores`]: only when both fingerprints
 //! match the campaign as it is now and the checksum (and every zip member's CRC-32) holds.
 
-use std::io::Write;
+use std::io::{Read, Seek, Write};
 use std::path::{Path, PathBuf};
 
 use crate::campaign::npz::NpzWriter;
@@ -103,9 +103,27 @@ pub fn save_scores(
     key: &ScoresKey,
 ) -> Result<PathBuf, NoveltyError> {
     let path = real_round_dir(root, round)?.join(SCORES_FILE);
-    crate::durable::write_file(&path, |w| write_npz(steps, s, key, w))
-        .map_err(|e| store_err(&path, e))?;
+    crate::durable::write_file(&path, |w| write_npz(steps, s, key, w)).map_err(|e| {
+        if is_full(&e) {
+            store_err(
+                &path,
+                "not saved: the disk is full (or a file size limit was reached); the scores \
+                 computed are lost, any earlier scores file is unchanged",
+            )
+        } else {
+            store_err(&path, e)
+        }
+    })?;
     Ok(path)
+}
+
+/// Whether a write failed for want of space: no space left (`ENOSPC`) or a file size limit
+/// (`EFBIG`, as `prlimit --fsize` gives).
+fn is_full(e: &std::io::Error) -> bool {
+    matches!(
+        e.kind(),
+        std::io::ErrorKind::StorageFull | std::io::ErrorKind::FileTooLarge
+    )
 }
 
 fn put<T: npyz::AutoSerialize + Copy, W: Write + std::io::Seek>(
@@ -188,12 +206,12 @@ fn checksum(t: &[i64], s: &RoundScores, key: &ScoresKey) -> String {
         .collect()
 }
 
-struct Reader {
-    src: NpzSource,
+struct Reader<R: Read + Seek> {
+    src: NpzSource<R>,
     path: PathBuf,
 }
 
-impl Reader {
+impl<R: Read + Seek> Reader<R> {
     fn array(&mut self, name: &str, shape: &[u64]) -> Result<Array, NoveltyError> {
         let a = self
             .src
@@ -252,7 +270,24 @@ pub fn load_scores(
 ) -> Result<(RoundScores, ScoresKey), NoveltyError> {
     let path = scores_path(root, round);
     let src = NpzSource::open(&path).map_err(|e| store_err(&path, e))?;
-    let mut r = Reader { src, path };
+    read_saved(Reader { src, path }, steps)
+}
+
+/// Like [`load_scores`], from the bytes of a scores archive in any seekable reader (errors
+/// name the file `scores.npz`).
+pub fn load_scores_from<R: Read + Seek>(
+    r: R,
+    steps: &StepTable,
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
+    let path = PathBuf::from(SCORES_FILE);
+    let src = NpzSource::new(r).map_err(|e| store_err(&path, e))?;
+    read_saved(Reader { src, path }, steps)
+}
+
+fn read_saved<R: Read + Seek>(
+    mut r: Reader<R>,
+    steps: &StepTable,
+) -> Result<(RoundScores, ScoresKey), NoveltyError> {
     let scores = read_scores(&mut r, steps)?;
     if r.src
         .shape("checksum")
@@ -319,7 +354,10 @@ pub fn reusable_scores(
     Ok(scores)
 }
 
-fn read_scores(r: &mut Reader, steps: &StepTable) -> Result<RoundScores, NoveltyError> {
+fn read_scores<R: Read + Seek>(
+    r: &mut Reader<R>,
+    steps: &StepTable,
+) -> Result<RoundScores, NoveltyError> {
     let n = steps.len() as u64;
     let (d, a) = (steps.state_dim as u64, steps.action_dim as u64);
     let t = r.floats("t", &[n])?;

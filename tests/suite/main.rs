@@ -37,6 +37,7 @@ mod loaders;
 mod long_sitting;
 mod notices;
 mod novelty_knn;
+mod numpy_memory;
 mod plotting;
 mod properties;
 mod review_plan;

@@ -209,3 +209,33 @@ fn demonstrations_without_spread_are_warned_about() {
     assert!(err.contains("the demonstrations show no spread"), "{err}");
     assert!(out.contains("steps: 600, flagged: 600 (100.0%)"), "{out}");
 }
+
+#[test]
+fn a_full_disk_during_score_is_a_clear_message() {
+    if Command::new("prlimit").arg("--version").output().is_err() {
+        println!("prlimit (util-linux) is not installed: the disk-full test cannot run");
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    make_campaign(dir.path());
+    // A file size limit of 20 kB (SIGXFSZ ignored, so the write fails with EFBIG) cuts the
+    // scores file in the middle, as a full disk would.
+    let out = Command::new("sh")
+        .args([
+            "-c",
+            "trap '' XFSZ; exec prlimit --fsize=20000 \"$@\"",
+            "sh",
+        ])
+        .arg(env!("CARGO_BIN_EXE_countersteer"))
+        .args(["score", dir.path().to_str().unwrap(), "--round", "1"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(1), "{err}");
+    assert!(!err.contains("ZipWriter"), "{err}");
+    assert!(
+        err.contains("scores.npz: not saved: the disk is full (or a file size limit was reached)"),
+        "{err}"
+    );
+    assert!(!scores_path(dir.path(), 1).exists());
+}

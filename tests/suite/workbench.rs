@@ -322,3 +322,19 @@ fn the_strip_plots_fit_beside_the_desk_in_a_narrow_window() {
         "strip plots {strip} points wide in a {width}-point window"
     );
 }
+
+/// Under the window's own theme (larger text and spacing than egui's defaults) the drift
+/// strip keeps its height: its plots are sized from the style, so its contents never ask
+/// for more than the panel has (a panel grows to its contents, frame after frame, and the
+/// strip once swallowed the map that way).
+#[test]
+fn the_strip_keeps_its_height_under_the_theme() {
+    let dir = tempfile::tempdir().unwrap();
+    common::rover::write_campaign(dir.path());
+    let mut h = harness(dir.path());
+    countersteer::app::theme::apply(&h.ctx);
+    let start = h.state().ui.layout.strip_height;
+    h.run_steps(40);
+    let end = h.state().ui.layout.strip_height;
+    assert!(end <= start + 1.0, "the strip grew from {start} to {end}");
+}
