@@ -179,7 +179,6 @@ pub fn ledger(e: Ledger) -> PyErr {
     raise::<LedgerError>(e.to_string(), &[place])
 }
 
-#[cfg(countersteer_batch)]
 /// A batch of verdicts that was refused (every problem, by input line and field).
 pub fn batch(e: countersteer::ledger::batch::BatchError) -> PyErr {
     use countersteer::ledger::batch::BatchError;

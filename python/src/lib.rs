@@ -6,7 +6,6 @@
 //! conversion, unicode arrays, the optional torch adapter).
 
 mod convert;
-#[cfg(countersteer_batch)]
 mod correct;
 mod errors;
 mod model;
@@ -103,7 +102,6 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(steps::score, m)?)?;
     m.add_function(wrap_pyfunction!(steps::save_scores, m)?)?;
     m.add_function(wrap_pyfunction!(steps::plan, m)?)?;
-    #[cfg(countersteer_batch)]
     m.add_function(wrap_pyfunction!(correct::correct, m)?)?;
     m.add_function(wrap_pyfunction!(steps::tally, m)?)?;
     m.add_function(wrap_pyfunction!(steps::export, m)?)?;
