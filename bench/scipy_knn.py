@@ -1,6 +1,6 @@
 """Times scipy.spatial.cKDTree on the data the benchmark wrote, and prints the ratio.
 
-    cargo run --release --bin bench -- --only w2 --npy /tmp/cs-bench
+    cargo run --release --features bench --bin bench -- --only w2 --npy /tmp/cs-bench
     python3 bench/scipy_knn.py /tmp/cs-bench [--runs 3] [--queries N]
 
 demos.npy and queries.npy hold the SCALED states (float32), so both programs measure the same

@@ -427,7 +427,10 @@ impl Workbench {
                 );
             });
         match spawned {
-            Ok(_) => self.dialog = Some(rx),
+            Ok(_) => {
+                self.dialog = Some(rx);
+                self.dialog_since = Some(std::time::Instant::now());
+            }
             Err(e) => self.status.error(format!(
                 "cannot open the folder dialog: {e}; type the path instead"
             )),

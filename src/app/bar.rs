@@ -64,6 +64,9 @@ fn open_ui(wb: &mut Workbench, ui: &mut egui::Ui, cmds: &mut Vec<Command>) {
         .desired_width(130.0)
         .hint_text("or type a folder path");
     let r = ui.add(edit).accessible_name("Campaign folder path");
+    if std::mem::take(&mut wb.focus_path) {
+        r.request_focus();
+    }
     let enter = r.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
     if (ui.button("Open path").clicked() || enter) && !wb.typed_path.trim().is_empty() {
         cmds.push(Command::Open(PathBuf::from(wb.typed_path.trim())));

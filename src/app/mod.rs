@@ -40,18 +40,42 @@ pub use workbench::{DrawOptions, Workbench};
 /// Folder name of the demo campaign.
 pub const DEMO_DIR: &str = "demo-data";
 
-/// The demo campaign folder, if one can be found: `demo-data/` in the working folder, else
-/// beside the source tree the program was built from.
+/// Where the first run writes the demo campaign: the platform's data folder
+/// (`$XDG_DATA_HOME/countersteer/demo-data`, else `~/.local/share/countersteer/demo-data` on
+/// Linux and other Unix; `~/Library/Application Support/countersteer/demo-data` on macOS;
+/// `%APPDATA%\countersteer\demo-data` on Windows), never the working folder, which is the home
+/// folder when the window is started from a desktop launcher. `env` looks up a variable.
+pub fn demo_home_from(env: impl Fn(&str) -> Option<std::ffi::OsString>) -> Option<PathBuf> {
+    let absolute = |v: Option<std::ffi::OsString>| v.map(PathBuf::from).filter(|p| p.is_absolute());
+    let base = if cfg!(windows) {
+        absolute(env("APPDATA"))
+    } else if cfg!(target_os = "macos") {
+        absolute(env("HOME")).map(|h| h.join("Library/Application Support"))
+    } else {
+        absolute(env("XDG_DATA_HOME"))
+            .or_else(|| absolute(env("HOME")).map(|h| h.join(".local/share")))
+    }?;
+    Some(base.join("countersteer").join(DEMO_DIR))
+}
+
+/// [`demo_home_from`] with this process's environment, else `demo-data/` in the working folder
+/// when no data folder can be named.
+pub fn demo_home() -> PathBuf {
+    demo_home_from(|k| std::env::var_os(k)).unwrap_or_else(|| PathBuf::from(DEMO_DIR))
+}
+
+/// The demo campaign folder, if one can be found: in the data folder ([`demo_home`]), else
+/// `demo-data/` in the working folder, else beside the source tree the program was built from.
 pub fn demo_campaign() -> Option<PathBuf> {
     let here = PathBuf::from(DEMO_DIR);
     let built = Path::new(env!("CARGO_MANIFEST_DIR")).join(DEMO_DIR);
-    [here, built]
+    [demo_home(), here, built]
         .into_iter()
         .find(|p| p.join(crate::campaign::folder::CAMPAIGN_FILE).is_file())
 }
 
 /// Which campaign a starting window opens: the one asked for, else the last one, else the demo
-/// (`None`: no demo campaign exists yet; the window writes one into [`DEMO_DIR`]).
+/// (`None`: no demo campaign exists yet; the window writes one into [`demo_home`]).
 pub fn startup_campaign(asked: Option<&Path>, remembered: &UiState) -> Option<PathBuf> {
     asked
         .map(Path::to_path_buf)
@@ -124,7 +148,7 @@ pub fn run(open: Option<PathBuf>, start: Start) -> Result<(), RunError> {
             wb.begin(start);
             match startup_campaign(open.as_deref(), &wb.ui) {
                 Some(dir) => wb.open(&dir),
-                None => wb.open_demo(Path::new(DEMO_DIR)),
+                None => wb.open_demo(&demo_home()),
             }
             Ok(Box::new(App { wb }))
         }),
@@ -153,5 +177,34 @@ mod tests {
         assert_eq!(last.as_deref(), Some(Path::new("/data/last")));
         // First run: whatever demo campaign can be found (none in a bare checkout).
         assert_eq!(startup_campaign(None, &UiState::default()), demo_campaign());
+    }
+
+    fn env<'a>(vars: &'a [(&'a str, &'a str)]) -> impl Fn(&str) -> Option<std::ffi::OsString> + 'a {
+        move |k| vars.iter().find(|(n, _)| *n == k).map(|(_, v)| v.into())
+    }
+
+    // The XDG Base Directory Specification (version 0.8): $XDG_DATA_HOME, when set to an
+    // absolute path, else $HOME/.local/share; a relative value is to be ignored.
+    #[cfg(all(unix, not(target_os = "macos")))]
+    #[test]
+    fn the_demo_goes_to_the_xdg_data_folder() {
+        let both = [("XDG_DATA_HOME", "/d/share"), ("HOME", "/h/ann")];
+        assert_eq!(
+            demo_home_from(env(&both)),
+            Some(PathBuf::from("/d/share/countersteer/demo-data"))
+        );
+        let relative = [("XDG_DATA_HOME", "share"), ("HOME", "/h/ann")];
+        assert_eq!(
+            demo_home_from(env(&relative)),
+            Some(PathBuf::from("/h/ann/.local/share/countersteer/demo-data"))
+        );
+        assert_eq!(demo_home_from(env(&[])), None);
+    }
+
+    #[test]
+    fn a_dialog_that_answers_at_once_never_opened() {
+        use std::time::Duration;
+        assert!(workbench::dialog_never_opened(Duration::from_millis(5)));
+        assert!(!workbench::dialog_never_opened(Duration::from_secs(2)));
     }
 }

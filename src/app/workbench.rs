@@ -84,6 +84,11 @@ pub struct Workbench {
     pub(super) density_texture: Option<egui::TextureHandle>,
     pub(super) typed_path: String,
     pub(super) dialog: Option<Receiver<Option<PathBuf>>>,
+    /// When the folder dialog was asked for (a dialog that answers "nothing" at once never
+    /// opened: no desktop portal).
+    pub(super) dialog_since: Option<std::time::Instant>,
+    /// Put the keyboard on the typed path field at the next frame.
+    pub(super) focus_path: bool,
     pub(super) strip_width: f32,
     /// Every annotator's corrections, aggregated when the campaign was opened and again
     /// whenever a ledger changes on disk.
@@ -135,6 +140,8 @@ impl Workbench {
             density_texture: None,
             typed_path: String::new(),
             dialog: None,
+            dialog_since: None,
+            focus_path: false,
             strip_width: 800.0,
             tally: None,
             desk: Default::default(),
@@ -272,10 +279,27 @@ impl Workbench {
                 self.dialog = None;
                 self.open(&dir);
             }
-            Ok(None) | Err(std::sync::mpsc::TryRecvError::Disconnected) => self.dialog = None,
+            Ok(None) | Err(std::sync::mpsc::TryRecvError::Disconnected) => {
+                self.dialog = None;
+                let waited = self.dialog_since.map(|t| t.elapsed());
+                if waited.is_some_and(dialog_never_opened) {
+                    self.status.error(
+                        "no folder dialog could open here (no desktop portal answered); \
+                         type the folder's path in the field beside Open path"
+                            .into(),
+                    );
+                    self.focus_path = true;
+                }
+            }
             Err(std::sync::mpsc::TryRecvError::Empty) => {}
         }
     }
+}
+
+/// Whether a dialog that answered "nothing" after `waited` never opened: nobody closes a
+/// dialog within a quarter second, while a missing portal answers at once.
+pub fn dialog_never_opened(waited: std::time::Duration) -> bool {
+    waited < std::time::Duration::from_millis(250)
 }
 
 fn load(dir: PathBuf, progress: &crate::progress::Progress) -> Loaded {

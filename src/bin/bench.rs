@@ -2,7 +2,7 @@
 //! figure beside a baseline measured in the same run. Run in release:
 //!
 //! ```text
-//! cargo run --release --bin bench -- [--runs 3] [--only w1,w2,w3,wide,load,plan] [--npy DIR]
+//! cargo run --release --features bench --bin bench -- [--runs 3] [--only w1,w2,w3,wide,load,plan] [--npy DIR]
 //! ```
 //!
 //! * W1: 1M demonstration states, 100k rollout steps, D = 16: build + calibrate + score.

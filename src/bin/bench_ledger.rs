@@ -2,7 +2,7 @@
 //! append without fsync), bulk corrections (`correct --from`, against one `correct` process
 //! per correction on the same campaign), and merged-set export throughput (against the
 //! campaign's plain table writers on the same rows). Run in release:
-//! `cargo build --release && cargo run --release --bin bench_ledger [-- --appends N --rows N
+//! `cargo build --release && cargo run --release --features bench --bin bench_ledger [-- --appends N --rows N
 //! --corrections N --sample N]`.
 
 use std::io::Write;

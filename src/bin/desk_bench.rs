@@ -3,7 +3,7 @@
 //! re-plan of the list, and two frames of layout and tessellation (the frame that handles the
 //! key and the frame that shows the next entry), headless at 1280x800.
 //!
-//! Run: `cargo run --release --bin desk_bench [-- DIR --verdicts N]`. DIR (default
+//! Run: `cargo run --release --features bench --bin desk_bench [-- DIR --verdicts N]`. DIR (default
 //! `demo-data`) is copied to `target/desk-bench/` so the campaign's own ledgers are not
 //! touched; the last round is reviewed by an annotator named `bench`. Printed: median and p99
 //! of the whole latency, of the save itself (append with fsync, re-plan, move), of the append

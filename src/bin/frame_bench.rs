@@ -2,7 +2,7 @@
 //! headless, 1280x800) for a 1,000,000-step episode over 1,000,000 demonstration states,
 //! with plot decimation on and, as the baseline in the same run, off.
 //!
-//! Run: `cargo run --release --bin frame_bench [-- --steps N --demos N --frames N]`.
+//! Run: `cargo run --release --features bench --bin frame_bench [-- --steps N --demos N --frames N]`.
 //! Each frame is timed twice: the CPU time of the UI thread (from `/proc/thread-self/schedstat`,
 //! Linux; robust when other processes share the cores) and the wall-clock time. Medians and
 //! 90th percentiles over the measured frames are printed.

@@ -4,12 +4,13 @@ use std::path::PathBuf;
 
 use clap::Args;
 
-use super::{CliError, progress_bar::Bar};
+use super::{CliError, json, progress_bar::Bar};
 use countersteer::campaign::summary::summarize_campaign;
 use countersteer::campaign::{LoadOptions, Severity, check_campaign};
 use countersteer::novelty::model::{calibration_count, check_alpha, without_spread};
 use countersteer::novelty::scale::scales_with_origin;
 use countersteer::progress::Progress;
+use serde_json::{Value, json};
 
 /// Arguments of `check`.
 #[derive(Debug, Args)]
@@ -25,6 +26,9 @@ pub struct CheckArgs {
     /// Most records one data file may hold; a file with more is refused.
     #[arg(long, default_value_t = countersteer::campaign::steps::DEFAULT_RECORD_CAP)]
     pub max_records: usize,
+    /// Print one JSON object on standard output instead of the text summary (see README).
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// The novelty settings against the demonstrations: an alpha below what the calibration can
@@ -76,22 +80,76 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         .iter()
         .filter(|p| p.severity == Severity::Warning)
         .count();
+    let problems: Vec<Value> = report.problems.iter().map(json::problem).collect();
     let Some(c) = report.campaign else {
         let n = report.error_count();
-        return Err(CliError::invalid(format!(
+        let e = CliError::invalid(format!(
             "{}: {n} error(s){}; the campaign cannot be used as it is",
             a.dir.display(),
             if report.more > 0 { " shown" } else { "" }
-        )));
+        ));
+        if !a.json {
+            return Err(e);
+        }
+        let mut v = json::failure(&e);
+        v["errors"] = json!(n);
+        v["problems"] = json!(problems);
+        v["more"] = json!(report.more);
+        json::print(&v);
+        return Err(e.reported());
     };
     let warnings = warnings + novelty_checks(&c)?;
+    if a.json {
+        json::print_ok(json!({
+            "campaign": c.file.name,
+            "dir": a.dir.display().to_string(),
+            "state_features": c.spec().state_dim(),
+            "action_channels": c.spec().action_dim(),
+            "tables": summary_json(&c),
+            "warnings": warnings,
+            "problems": problems,
+            "more": report.more,
+        }));
+        return Ok(());
+    }
+    print_text(&c, &a, warnings);
+    Ok(())
+}
+
+/// The per-table summaries as JSON.
+fn summary_json(c: &countersteer::campaign::Campaign) -> Value {
+    let tables: Vec<Value> = summarize_campaign(c)
+        .iter()
+        .map(|s| {
+            let features: Vec<Value> = s
+                .features
+                .iter()
+                .map(|f| {
+                    json!({"name": f.name, "min": f.min, "max": f.max, "mean": f.mean, "unit": f.unit})
+                })
+                .collect();
+            json!({
+                "label": s.label,
+                "episodes": s.episodes,
+                "steps": s.steps,
+                "interventions": s.interventions,
+                "frames": s.frames,
+                "with_samples": s.with_samples,
+                "features": features,
+            })
+        })
+        .collect();
+    json!(tables)
+}
+
+fn print_text(c: &countersteer::campaign::Campaign, a: &CheckArgs, warnings: usize) {
     say!("campaign `{}` in {}", c.file.name, a.dir.display());
     say!(
         "  spec: {} state features, {} action channels",
         c.spec().state_dim(),
         c.spec().action_dim()
     );
-    for s in summarize_campaign(&c) {
+    for s in summarize_campaign(c) {
         say!(
             "{}: {} episodes, {} steps, {} interventions, {} frames, {} with ensemble samples",
             s.label,
@@ -122,5 +180,4 @@ pub fn run(a: CheckArgs) -> Result<(), CliError> {
         say!("{warnings} warning(s) above; the data was used as described in each");
     }
     say!("ok");
-    Ok(())
 }

@@ -17,6 +17,7 @@ mod demo;
 mod export;
 #[cfg(feature = "gui")]
 mod gui;
+mod json;
 pub mod out;
 mod plan;
 mod progress_bar;
@@ -75,6 +76,7 @@ pub enum Command {
 /// Parses the arguments and runs the program.
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
+    let json = cli.command.as_ref().is_some_and(Command::wants_json);
     if cli
         .command
         .as_ref()
@@ -106,12 +108,26 @@ pub fn main() -> ExitCode {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
             tell!("countersteer: {}", e.message);
+            if json && !e.reported {
+                json::print(&json::failure(&e));
+            }
             ExitCode::from(e.code)
         }
     }
 }
 
 impl Command {
+    /// Whether the command was asked for one JSON object on standard output (`--json`).
+    pub fn wants_json(&self) -> bool {
+        match self {
+            Command::Check(a) => a.json,
+            Command::Score(a) => a.json,
+            Command::Plan(a) => a.json,
+            Command::Tally(a) => a.json,
+            _ => false,
+        }
+    }
+
     /// Whether the command is a step toward running a learner on real hardware (planning,
     /// correcting, exporting the next training set, or the demo and study that model it):
     /// these print the safety caution.
@@ -151,6 +167,8 @@ pub struct CliError {
     pub message: String,
     /// The process exit code.
     pub code: u8,
+    /// Whether the command already printed its `--json` object for this failure.
+    pub reported: bool,
 }
 
 impl CliError {
@@ -159,6 +177,7 @@ impl CliError {
         CliError {
             message: message.into(),
             code: EXIT_USAGE,
+            reported: false,
         }
     }
 
@@ -167,6 +186,15 @@ impl CliError {
         CliError {
             message: message.into(),
             code: EXIT_INVALID,
+            reported: false,
+        }
+    }
+
+    /// The same error, marked as already printed as a `--json` object.
+    pub fn reported(self) -> Self {
+        CliError {
+            reported: true,
+            ..self
         }
     }
 }

@@ -4,15 +4,16 @@ use std::path::PathBuf;
 
 use clap::Args;
 
-use super::CliError;
 use super::progress_bar::Bar;
 use super::score::load;
+use super::{CliError, json};
 use countersteer::campaign::{Campaign, StepTable};
 use countersteer::novelty::RoundScores;
 use countersteer::progress::Progress;
 use countersteer::review::store::save_review_list;
 use countersteer::review::{DEFAULT_BUDGET, PlanSettings, ReviewList, plan, states_of_rows};
 use countersteer::workflow::{AnalysisOptions, ScoreSource, analyse, tally_campaign};
+use serde_json::{Value, json};
 
 /// Arguments of `plan`.
 #[derive(Debug, Args)]
@@ -46,6 +47,9 @@ pub struct PlanArgs {
     /// action gaps are chosen, instead of filling it with the excursions' other flagged steps.
     #[arg(long)]
     pub no_fill: bool,
+    /// Print one JSON object on standard output instead of the text list (see README).
+    #[arg(long)]
+    pub json: bool,
 }
 
 fn analysis_for(c: &Campaign, a: &PlanArgs) -> Result<RoundScores, CliError> {
@@ -99,6 +103,14 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
     // Saved before anything is printed: a reader that stops early (`| head`) loses no file.
     let path = save_review_list(&c.root, a.round, steps, &list)
         .map_err(|e| CliError::invalid(e.to_string()))?;
+    if a.json {
+        let mut v = list_json(steps, &list);
+        v["round"] = json!(a.round);
+        v["already_judged"] = json!(judged.len());
+        v["review_list_file"] = json!(path.display().to_string());
+        json::print_ok(v);
+        return Ok(());
+    }
     if !judged.is_empty() {
         say!(
             "{} step(s) of round {} already judged in the ledgers: the list avoids their ground",
@@ -118,6 +130,32 @@ fn judged_rows(c: &Campaign, round: u32, steps: &StepTable) -> Result<Vec<usize>
     Ok(countersteer::workflow::judged_rows(
         steps, round, &ledgers, None,
     ))
+}
+
+/// The review list as JSON (non-finite numbers become `null`).
+fn list_json(steps: &StepTable, list: &ReviewList) -> Value {
+    let entries: Vec<Value> = list
+        .entries
+        .iter()
+        .map(|e| {
+            let reasons: Vec<&str> = e.reasons.iter().map(|r| r.as_str()).collect();
+            json!({
+                "episode": steps.episodes[e.episode].name,
+                "t": e.t,
+                "novelty": e.novelty,
+                "p_value": e.p_value,
+                "action_gap": e.action_gap,
+                "priority": e.priority,
+                "reasons": reasons,
+            })
+        })
+        .collect();
+    json!({
+        "candidates": list.candidates,
+        "pool": list.pool,
+        "covering_radius": list.covering_radius,
+        "entries": entries,
+    })
 }
 
 fn print_list(steps: &StepTable, list: &ReviewList) {

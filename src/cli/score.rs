@@ -4,7 +4,7 @@ use std::path::{Path, PathBuf};
 
 use clap::Args;
 
-use super::{CliError, campaign_dir, progress_bar::Bar};
+use super::{CliError, campaign_dir, json, progress_bar::Bar};
 use countersteer::campaign::{Campaign, LoadOptions, load_campaign};
 use countersteer::novelty::explain::{describe, flagged_shares, top_features};
 use countersteer::novelty::scale::ScaleOrigin;
@@ -13,6 +13,7 @@ use countersteer::novelty::{NoveltyError, NoveltyModel, RoundScores, build_model
 use countersteer::progress::Progress;
 use countersteer::review::episode_stats;
 use countersteer::review::{ExcursionSettings, excursions};
+use serde_json::{Value, json};
 
 /// Arguments of `score`.
 #[derive(Debug, Args)]
@@ -25,6 +26,9 @@ pub struct ScoreArgs {
     /// Episodes listed in the summary.
     #[arg(long, default_value_t = 5)]
     pub worst: usize,
+    /// Print one JSON object on standard output instead of the text summary (see README).
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Loads a campaign with a progress bar.
@@ -70,9 +74,99 @@ pub fn run(a: ScoreArgs) -> Result<(), CliError> {
         .steps;
     let path = save_scores(&c.root, a.round, steps, &scores, &ScoresKey::of(&c, steps))
         .map_err(|e| CliError::invalid(e.to_string()))?;
+    if a.json {
+        let mut v = summary_json(&c, &model, steps, &scores, a.worst);
+        v["round"] = json!(a.round);
+        v["scores_file"] = json!(path.display().to_string());
+        json::print_ok(v);
+        return Ok(());
+    }
     print_summary(&c, &model, steps, &scores, a.worst);
     say!("wrote {}", path.display());
     Ok(())
+}
+
+/// The summary as JSON (the same facts as the text).
+fn summary_json(
+    c: &Campaign,
+    model: &NoveltyModel,
+    steps: &countersteer::campaign::StepTable,
+    s: &RoundScores,
+    worst: usize,
+) -> Value {
+    let ex = excursions(steps, s, &ExcursionSettings::default());
+    let names: Vec<&str> = c.spec().features.iter().map(|f| f.name.as_str()).collect();
+    let top: Vec<Value> = flagged_shares(s)
+        .map(|sh| top_features(&sh, 3, 0.0))
+        .unwrap_or_default()
+        .into_iter()
+        .filter_map(|(i, share)| Some(json!({"feature": names.get(i)?, "share": share})))
+        .collect();
+    let worst: Vec<Value> = worst_episodes(steps, s, &ex, worst)
+        .into_iter()
+        .map(|w| {
+            json!({
+                "episode": w.name, "flagged": w.flagged, "steps": w.len,
+                "max_novelty": w.max_novelty, "first_excursion_t": w.onset,
+            })
+        })
+        .collect();
+    let split = model.split();
+    json!({
+        "demonstration_states": c.demonstrations.len(),
+        "calibration_episodes": split.calibration.len(),
+        "calibration_states": model.conformal().len(),
+        "k": model.k(),
+        "alpha": model.alpha(),
+        "threshold": s.threshold,
+        "steps": s.len(),
+        "flagged": s.flagged_count(),
+        "excursions": ex.len(),
+        "episodes_with_excursions": count_episodes(&ex),
+        "episodes": steps.episodes.len(),
+        "top_features": top,
+        "worst_episodes": worst,
+    })
+}
+
+/// One of the episodes with the most flagged steps.
+struct Worst {
+    name: String,
+    flagged: usize,
+    len: usize,
+    max_novelty: f32,
+    onset: Option<i64>,
+}
+
+/// The `worst` episodes with the most flagged steps (ties by peak novelty).
+fn worst_episodes(
+    steps: &countersteer::campaign::StepTable,
+    s: &RoundScores,
+    ex: &[countersteer::review::Excursion],
+    worst: usize,
+) -> Vec<Worst> {
+    let mut eps: Vec<(usize, usize, f32)> = episode_stats(steps, Some(s))
+        .into_iter()
+        .map(|e| {
+            (
+                e.episode,
+                e.flagged.unwrap_or(0),
+                e.peak_novelty.unwrap_or(0.0),
+            )
+        })
+        .filter(|x| x.1 > 0)
+        .collect();
+    eps.sort_by(|a, b| b.1.cmp(&a.1).then(b.2.total_cmp(&a.2)));
+    eps.into_iter()
+        .take(worst)
+        .map(|(i, flagged, max_novelty)| Worst {
+            name: steps.episodes[i].name.clone(),
+            flagged,
+            len: steps.episodes[i].len,
+            max_novelty,
+            onset: ex.iter().find(|x| x.episode == i).map(|x| steps.t[x.onset]),
+        })
+        .collect()
 }
 
 fn print_summary(
@@ -192,32 +286,21 @@ fn print_worst(
     ex: &[countersteer::review::Excursion],
     worst: usize,
 ) {
-    let mut eps: Vec<(usize, usize, f32)> = episode_stats(steps, Some(s))
-        .into_iter()
-        .map(|e| {
-            (
-                e.episode,
-                e.flagged.unwrap_or(0),
-                e.peak_novelty.unwrap_or(0.0),
-            )
-        })
-        .filter(|x| x.1 > 0)
-        .collect();
-    eps.sort_by(|a, b| b.1.cmp(&a.1).then(b.2.total_cmp(&a.2)));
+    let eps = worst_episodes(steps, s, ex, worst);
     if eps.is_empty() {
         return;
     }
     say!("  episodes with the most flagged steps:");
-    for (i, f, m) in eps.into_iter().take(worst) {
-        let e = &steps.episodes[i];
-        let first = ex.iter().find(|x| x.episode == i).map(|x| steps.t[x.onset]);
-        let onset = first.map_or("no excursion".to_string(), |t| {
+    for w in eps {
+        let onset = w.onset.map_or("no excursion".to_string(), |t| {
             format!("first excursion at t = {t}")
         });
         say!(
-            "    {:<24} {f:>6} of {:>6} flagged, max novelty {m:.3}, {onset}",
-            e.name,
-            e.len
+            "    {:<24} {:>6} of {:>6} flagged, max novelty {:.3}, {onset}",
+            w.name,
+            w.flagged,
+            w.len,
+            w.max_novelty
         );
     }
 }

@@ -111,3 +111,56 @@ fn the_command_line_is_not_part_of_the_library() {
     let offenders = naming(&library, &["crate::cli", "countersteer::cli"]);
     assert!(offenders.is_empty(), "{offenders:#?}");
 }
+
+/// `cargo install --path .` installs exactly one program: every binary target but
+/// `countersteer` needs the `bench` feature (asked of `cargo metadata`, which also lists
+/// binaries found in `src/bin/` without a `[[bin]]` entry).
+#[test]
+fn installing_puts_one_program_on_path() {
+    let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
+    let out = std::process::Command::new(cargo)
+        .args([
+            "metadata",
+            "--no-deps",
+            "--offline",
+            "--format-version",
+            "1",
+        ])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let meta: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let pkg = meta["packages"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["name"] == "countersteer")
+        .unwrap();
+    let mut installed = Vec::new();
+    let mut benches = Vec::new();
+    for t in pkg["targets"].as_array().unwrap() {
+        if !t["kind"].as_array().unwrap().iter().any(|k| k == "bin") {
+            continue;
+        }
+        let name = t["name"].as_str().unwrap().to_string();
+        let needs_bench = t["required-features"]
+            .as_array()
+            .is_some_and(|f| f.iter().any(|x| x == "bench"));
+        if needs_bench {
+            benches.push(name);
+        } else {
+            installed.push(name);
+        }
+    }
+    benches.sort();
+    assert_eq!(installed, ["countersteer"]);
+    assert_eq!(
+        benches,
+        ["bench", "bench_ledger", "desk_bench", "frame_bench"]
+    );
+}

@@ -16,6 +16,7 @@ mod cli_batch;
 mod cli_corrections;
 #[cfg(feature = "gui")]
 mod cli_gui;
+mod cli_json;
 mod cli_pipes;
 mod cli_score_plan;
 mod conformal;
