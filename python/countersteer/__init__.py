@@ -56,7 +56,7 @@ __all__ = [
     "VERSION",
 ]
 
-_TEXT = ("episode", "source", "reasons_joined")
+_TEXT = ("episode", "source", "reasons_joined", "scale_origin")
 
 
 def _path(p) -> str:
@@ -256,9 +256,14 @@ class Model:
                                                      _f32(actions), flags)))
 
 
+# Fields of a scores dict that describe the whole round, not one row each.
+_PER_ROUND = ("threshold", "alpha", "scale", "phase_start", "phase_threshold", "scale_origin")
+
+
 def concat_scores(parts: Sequence[Dict[str, np.ndarray]]) -> Dict[str, np.ndarray]:
     """Joins per-shard scores (each with a ``row`` column) into one dict in row order; the
-    per-round fields (``threshold``, ``alpha``, ``scale``) are taken from the first part."""
+    per-round fields (``threshold``, ``alpha``, ``scale``, the calibration phases and the
+    scales' origins) are taken from the first part."""
     parts = [p for p in parts if len(p["novelty"])]
     if not parts:
         raise UsageError("no scored rows to join")
@@ -266,7 +271,7 @@ def concat_scores(parts: Sequence[Dict[str, np.ndarray]]) -> Dict[str, np.ndarra
     order = np.argsort(rows, kind="stable")
     out = {}
     for key in parts[0]:
-        if key in ("threshold", "alpha", "scale"):
+        if key in _PER_ROUND:
             out[key] = np.asarray(parts[0][key])
         else:
             out[key] = np.concatenate([np.asarray(p[key]) for p in parts])[order]

@@ -84,6 +84,11 @@ def score_with_ray(campaign, round: int, n_shards: int, workers: int):
     out["threshold"] = np.array([model.threshold], dtype=np.float32)
     out["alpha"] = np.array([model.alpha], dtype=np.float64)
     out["scale"] = model.scale
+    # The calibration phases and the scales' origins describe the round, not a row: take them
+    # from one row scored on the driver.
+    head = model.score_rows(round, 0, min(1, n))
+    for k in ("phase_start", "phase_threshold", "scale_origin"):
+        out[k] = np.asarray(head[k])
     return out
 
 
