@@ -61,9 +61,9 @@ class Campaign:
         with np.load(self.root / "analysis" / str(k) / "scores.npz") as z:
             return {key: z[key] for key in z.files}
 
-    def plan(self, k, budget):
-        """The review list's (episode, t) pairs, in rank order."""
-        self.cs("plan", self.root, "--round", k, "--budget", budget)
+    def plan(self, k, budget, *extra):
+        """The review list's (episode, t) pairs, in rank order (`extra`: more plan options)."""
+        self.cs("plan", self.root, "--round", k, "--budget", budget, *extra)
         path = self.root / "analysis" / str(k) / "review-list.jsonl"
         rows = [json.loads(line) for line in path.read_text().splitlines() if line.strip()]
         return [(r["episode"], int(r["t"])) for r in rows]

@@ -18,7 +18,6 @@ import report
 from campaign import Campaign
 from tasks import TASKS, check_batch, rollout
 
-STRATEGIES = ("review", "random", "novelty", "dagger")
 
 CAUTION = (
     "A learner that does well here is not thereby safe on a machine. " + """Robots and vehicles can hurt people. Corrected data does not make a policy safe: a policy trained on it can still fail in ways no review caught. Collecting the next round means running an unproven learner on real hardware: test it in simulation first, have a trained safety operator ready to take over at once, use a tested emergency stop, run at reduced speed, and keep people out of the area. The flags and the review list are not a safety monitor: a step that was not flagged is not thereby safe. Typed corrections were never executed and may not be physically feasible. Local regulations and your site's safety procedures come first: test robots and vehicles under them, with the safeguards they require."""
@@ -60,10 +59,11 @@ def choose(strategy, camp, k, r, names, budget, sel_seed):
     if strategy == "novelty":
         s = camp.score(k)
         return np.argsort(-s["novelty"], kind="stable")[:budget]
-    if strategy == "review":
+    if strategy == "review" or strategy.startswith("review-s"):
         camp.score(k)
         row = {(e, int(t)): i for i, (e, t) in enumerate(zip(names, r.t))}
-        return np.array([row[p] for p in camp.plan(k, budget)], dtype=int)
+        extra = [] if strategy == "review" else ["--sample-share", int(strategy[8:]) / 100]
+        return np.array([row[p] for p in camp.plan(k, budget, *extra)], dtype=int)
     raise ValueError(strategy)
 
 
@@ -139,6 +139,9 @@ def main(argv=None):
     p.add_argument("--random-seeds", type=int, default=3)
     p.add_argument("--weights", choices=["ignore", "use"], default="ignore",
                    help="fit with the export's `weight` column (when present) or ignore it")
+    p.add_argument("--sample-shares", nargs="*", type=float, default=[],
+                   help="also run the review list with these `plan --sample-share` values "
+                        "(strategies review-s<percent>); `review` alone uses plan's default")
     p.add_argument("--keep", action="store_true", help="keep the campaign folders")
     p.add_argument("--report-only", action="store_true",
                    help="print the table and redraw the figure from the results folder's episodes.csv")
@@ -179,6 +182,7 @@ def main(argv=None):
         plan = [("dagger", None, 0)]
         for frac in cfg["budgets"]:
             plan += [("review", frac, 0), ("novelty", frac, 0)]
+            plan += [(f"review-s{round(100 * x)}", frac, 0) for x in args.sample_shares]
             plan += [("random", frac, s) for s in range(1, cfg["random_seeds"] + 1)]
         for strategy, frac, seed in plan:
             t0 = time.time()
@@ -200,13 +204,22 @@ def main(argv=None):
         shutil.rmtree(out / "campaigns", ignore_errors=True)
 
 
+def strategies_of(rows):
+    """The strategies present, in the table's order: review, its sample-share variants, then
+    the others."""
+    present = {r["strategy"] for r in rows}
+    variants = sorted((s for s in present if s.startswith("review-s")), key=lambda s: int(s[8:]))
+    return [s for s in ("review", *variants, "random", "novelty", "dagger") if s in present]
+
+
 def finish(task, out, rows, started, exe):
     """Prints the table and writes the CSV files and the figure."""
-    summary = report.summarise(rows, STRATEGIES)
+    strategies = strategies_of(rows)
+    summary = report.summarise(rows, strategies)
     report.print_table(task, summary)
     report.write_csv(out / "episodes.csv", rows)
     report.write_csv(out / "summary.csv", summary)
-    report.figure(out / "success.png", task, summary, STRATEGIES)
+    report.figure(out / "success.png", task, summary, strategies)
     print(f"wrote {out / 'episodes.csv'}, {out / 'summary.csv'}, {out / 'success.png'} "
           f"({time.time() - started:.0f} s; countersteer {exe})")
 

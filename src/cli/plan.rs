@@ -11,7 +11,9 @@ use countersteer::campaign::{Campaign, StepTable};
 use countersteer::novelty::RoundScores;
 use countersteer::progress::Progress;
 use countersteer::review::store::save_review_list;
-use countersteer::review::{DEFAULT_BUDGET, PlanSettings, ReviewList, plan, states_of_rows};
+use countersteer::review::{
+    DEFAULT_BUDGET, DEFAULT_SAMPLE_SHARE, PlanSettings, Planner, ReviewList,
+};
 use countersteer::workflow::{AnalysisOptions, ScoreSource, analyse, tally_campaign};
 use serde_json::{Value, json};
 
@@ -47,9 +49,24 @@ pub struct PlanArgs {
     /// action gaps are chosen, instead of filling it with the excursions' other flagged steps.
     #[arg(long)]
     pub no_fill: bool,
+    /// Share of the budget drawn uniformly from the round's visited steps, with known
+    /// inclusion probabilities (0 to 1; see README, "The review list"); the rest goes to
+    /// onsets, peaks and the other focused candidates.
+    #[arg(long, default_value_t = DEFAULT_SAMPLE_SHARE, value_parser = share)]
+    pub sample_share: f32,
+    /// Seed of the sampled part's draw.
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
     /// Print one JSON object on standard output instead of the text list (see README).
     #[arg(long)]
     pub json: bool,
+}
+
+fn share(s: &str) -> Result<f32, String> {
+    match s.parse::<f32>() {
+        Ok(x) if (0.0..=1.0).contains(&x) => Ok(x),
+        _ => Err(format!("`{s}` is not a share between 0 and 1")),
+    }
 }
 
 fn analysis_for(c: &Campaign, a: &PlanArgs) -> Result<RoundScores, CliError> {
@@ -96,10 +113,13 @@ pub fn run(a: PlanArgs) -> Result<(), CliError> {
         fill: !a.no_fill,
         failures: c.spec().failure_indices(),
         before_failure: a.before_failure,
+        sample_share: a.sample_share,
+        seed: a.seed,
         ..Default::default()
     };
     let judged = judged_rows(&c, a.round, steps)?;
-    let list = plan(steps, &scores, &states_of_rows(steps, &judged), &settings);
+    let list =
+        Planner::new(steps, &scores, &settings).plan_judged(steps, &scores, &judged, a.budget);
     // Saved before anything is printed: a reader that stops early (`| head`) loses no file.
     let path = save_review_list(&c.root, a.round, steps, &list)
         .map_err(|e| CliError::invalid(e.to_string()))?;
@@ -147,6 +167,7 @@ fn list_json(steps: &StepTable, list: &ReviewList) -> Value {
                 "action_gap": e.action_gap,
                 "priority": e.priority,
                 "reasons": reasons,
+                "inclusion": e.inclusion,
             })
         })
         .collect();
@@ -154,6 +175,7 @@ fn list_json(steps: &StepTable, list: &ReviewList) -> Value {
         "candidates": list.candidates,
         "pool": list.pool,
         "covering_radius": list.covering_radius,
+        "notes": list.notes.iter().map(|n| n.to_string()).collect::<Vec<_>>(),
         "entries": entries,
     })
 }
@@ -175,6 +197,9 @@ fn print_list(steps: &StepTable, list: &ReviewList) {
         "p-value",
         "gap"
     );
+    for n in &list.notes {
+        say!("note: {n}");
+    }
     for (i, e) in list.entries.iter().enumerate() {
         let reasons: Vec<&str> = e.reasons.iter().map(|r| r.as_str()).collect();
         say!(

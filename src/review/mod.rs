@@ -11,11 +11,13 @@ pub mod excursions;
 pub mod failure;
 pub mod kcenter;
 pub mod plan;
+pub mod sampling;
 pub mod store;
 
 pub use brief::{ChannelLine, FeatureLine, StepBrief};
 pub use episodes::{EpisodeStats, episode_stats};
 pub use excursions::{Excursion, ExcursionSettings, excursions};
 pub use plan::{
-    DEFAULT_BUDGET, PlanSettings, Planner, Reason, ReviewEntry, ReviewList, plan, states_of_rows,
+    DEFAULT_BUDGET, DEFAULT_SAMPLE_SHARE, PlanNote, PlanSettings, Planner, Reason, ReviewEntry,
+    ReviewList, plan, states_of_rows,
 };

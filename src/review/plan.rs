@@ -26,6 +26,16 @@
 //! (highest first); each keeps its pick order in [`ReviewEntry::pick`], and the first picks
 //! of that order are themselves a diverse selection.
 //!
+//! **Sampled part.** The focused part above gets the budget less `sample_share` of it; the
+//! rest, and whatever the focused part cannot spend, is drawn uniformly from the round's other
+//! visited steps (those not picked and not yet judged) by systematic sampling in episode and
+//! time order ([`super::sampling`]), so the labels also cover where the learner actually goes
+//! and the list has `budget` entries whenever the round has that many steps left. Each entry
+//! keeps its inclusion probability ([`ReviewEntry::inclusion`]: 1 for a focused pick); a
+//! trainer weighting a label by its inverse keeps its loss an unbiased estimate over the
+//! visited steps (importance-weighted active learning, Beygelzimer, Dasgupta & Langford 2009).
+//! [`ReviewList::notes`] says when the focused part or the whole list came out short, and why.
+//!
 //! **Re-planning.** [`Planner::new`] does the work that depends on the scores only (`O(n)` in
 //! the round's steps plus sorting the candidates). [`Planner::plan`] then costs
 //! `O((corrections + budget) * pool * dim)`: a few milliseconds for a 500-step budget, cheap
@@ -54,6 +64,8 @@ pub enum Reason {
     InsideExcursion,
     /// One of the steps before an episode ended in a failure (see [`super::failure`]).
     BeforeFailure,
+    /// Drawn uniformly from the visited steps (the sampled part of the list).
+    Sampled,
 }
 
 impl Reason {
@@ -66,6 +78,7 @@ impl Reason {
             Reason::ActionGap => 0.3,
             Reason::InsideExcursion => 0.1,
             Reason::BeforeFailure => 0.2,
+            Reason::Sampled => 0.0,
         }
     }
 
@@ -78,6 +91,81 @@ impl Reason {
             Reason::ActionGap => "action-gap",
             Reason::InsideExcursion => "inside-excursion",
             Reason::BeforeFailure => "before-failure",
+            Reason::Sampled => "sampled",
+        }
+    }
+
+    /// Every reason, in order.
+    pub const ALL: [Reason; 7] = [
+        Reason::ExcursionOnset,
+        Reason::ExcursionPeak,
+        Reason::BeforeIntervention,
+        Reason::ActionGap,
+        Reason::InsideExcursion,
+        Reason::BeforeFailure,
+        Reason::Sampled,
+    ];
+
+    /// The reason with a short name ([`Reason::as_str`]).
+    pub fn named(name: &str) -> Option<Reason> {
+        Reason::ALL.into_iter().find(|r| r.as_str() == name)
+    }
+}
+
+/// The share of the budget drawn from the visited steps unless one is given (see the module
+/// documentation, "Sampled part").
+pub const DEFAULT_SAMPLE_SHARE: f32 = 0.0;
+
+/// How a list came out, when it is not simply the budget's worth of focused picks.
+#[derive(Debug, Clone, PartialEq)]
+pub enum PlanNote {
+    /// The focused part chose `planned` of its `share` entries. With `drawn`, no candidate
+    /// was left and the rest was drawn from the visited steps; without, the rest is left
+    /// unspent (filling is off, or every candidate left is within `min_distance` of a
+    /// correction or pick).
+    FocusedShort {
+        /// Focused entries chosen.
+        planned: usize,
+        /// The focused part's share of the budget.
+        share: usize,
+        /// Whether the rest was drawn from the visited steps.
+        drawn: bool,
+    },
+    /// The list has `planned` of `budget` entries: the round has no other step that is not
+    /// yet judged or on the list.
+    RoundShort {
+        /// Entries on the list.
+        planned: usize,
+        /// Entries asked for.
+        budget: usize,
+    },
+}
+
+impl std::fmt::Display for PlanNote {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            PlanNote::FocusedShort {
+                planned,
+                share,
+                drawn: true,
+            } => write!(
+                f,
+                "{planned} of the focused part's {share} entries found (no other candidate \
+                 left); the rest drawn uniformly from the visited steps"
+            ),
+            PlanNote::FocusedShort {
+                planned,
+                share,
+                drawn: false,
+            } => write!(
+                f,
+                "{planned} of the focused part's {share} entries chosen; the rest left unspent \
+                 (filling is off, or every candidate left is near a correction or pick)"
+            ),
+            PlanNote::RoundShort { planned, budget } => write!(
+                f,
+                "{planned} of {budget} entries: the round has no other step not yet judged"
+            ),
         }
     }
 }
@@ -111,6 +199,11 @@ pub struct PlanSettings {
     /// Steps before a failed episode's end that are candidates (see [`super::failure`]); 0
     /// (the default) leaves them out: on the orchard study a window of 20 cost departures.
     pub before_failure: usize,
+    /// Share of the budget drawn uniformly from the visited steps (0..=1; see the module
+    /// documentation, "Sampled part").
+    pub sample_share: f32,
+    /// Seed of the sampled part's draw: the same inputs give the same list.
+    pub seed: u64,
 }
 
 impl Default for PlanSettings {
@@ -126,6 +219,8 @@ impl Default for PlanSettings {
             excursion: ExcursionSettings::default(),
             failures: Vec::new(),
             before_failure: 0,
+            sample_share: DEFAULT_SAMPLE_SHARE,
+            seed: 0,
         }
     }
 }
@@ -152,8 +247,11 @@ pub struct ReviewEntry {
     /// Action gap.
     pub action_gap: f32,
     /// Scaled distance to the nearest correction or earlier entry when it was picked
-    /// (infinite for a first pick with no correction).
+    /// (infinite for a first pick with no correction; NaN for a sampled entry).
     pub distance: f32,
+    /// Probability that the step was on the list: 1 for a focused pick, the draw's
+    /// probability for a sampled one (its inverse is the label's weight).
+    pub inclusion: f64,
 }
 
 /// The review list.
@@ -167,6 +265,8 @@ pub struct ReviewList {
     pub candidates: usize,
     /// Candidates in the diversity pool.
     pub pool: usize,
+    /// Why the list or its focused part came out short (empty when neither did).
+    pub notes: Vec<PlanNote>,
 }
 
 #[derive(Debug, Clone)]
@@ -314,6 +414,33 @@ impl Planner {
         corrected_states: &[f32],
         limit: usize,
     ) -> ReviewList {
+        self.choose(steps, scores, corrected_states, &[], limit)
+    }
+
+    /// Like [`Planner::plan_up_to`] with the judged rows themselves: their states seed the
+    /// diversity selection and the sampled part never draws them again.
+    pub fn plan_judged(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        judged: &[usize],
+        limit: usize,
+    ) -> ReviewList {
+        self.choose(steps, scores, &states_of_rows(steps, judged), judged, limit)
+    }
+
+    fn choose(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        corrected_states: &[f32],
+        judged: &[usize],
+        limit: usize,
+    ) -> ReviewList {
+        let sampled = ((self.settings.sample_share.clamp(0.0, 1.0) * limit as f32).floor()
+            as usize)
+            .min(limit);
+        let focused = limit - sampled;
         let mut cover = Cover::new(&self.points, self.dim);
         let mut scaled = vec![0.0f32; self.dim];
         for c in corrected_states.chunks_exact(self.dim.max(1)) {
@@ -324,11 +451,15 @@ impl Planner {
         }
         let mut entries = Vec::new();
         let mut fillers = false;
-        while entries.len() < limit {
+        // The focused part stops early because the ground is covered (`min_distance`) or the
+        // list is not to be filled (`fill` off): then its shortfall is left unspent.
+        let mut keep_short = !self.settings.fill;
+        while entries.len() < focused {
             let next = cover.farthest_among(|i| fillers || !self.pool[i].is_filler());
             let distance = next.map_or(0.0, |i| cover.distance(i));
             let Some(i) = next.filter(|_| distance > self.settings.min_distance) else {
                 if fillers || !self.settings.fill {
+                    keep_short |= next.is_some();
                     break;
                 }
                 fillers = true;
@@ -338,12 +469,76 @@ impl Planner {
             self.drop_near(&mut cover, steps, i);
             entries.push(self.entry(steps, scores, i, distance, entries.len()));
         }
+        let mut notes = Vec::new();
+        if entries.len() < focused {
+            notes.push(PlanNote::FocusedShort {
+                planned: entries.len(),
+                share: focused,
+                drawn: !keep_short,
+            });
+        }
+        let covering_radius = cover.radius();
+        let target = if keep_short {
+            entries.len() + sampled
+        } else {
+            limit
+        };
+        self.draw(steps, scores, judged, target, &mut entries);
+        if entries.len() < target {
+            notes.push(PlanNote::RoundShort {
+                planned: entries.len(),
+                budget: target,
+            });
+        }
         entries.sort_by(|a, b| b.priority.total_cmp(&a.priority).then(a.row.cmp(&b.row)));
         ReviewList {
             entries,
-            covering_radius: cover.radius(),
+            covering_radius,
             candidates: self.candidates,
             pool: self.pool.len(),
+            notes,
+        }
+    }
+
+    /// The sampled part: fills `entries` up to `limit` with a uniform systematic draw over
+    /// the rows neither on the list nor judged.
+    fn draw(
+        &self,
+        steps: &StepTable,
+        scores: &RoundScores,
+        judged: &[usize],
+        limit: usize,
+        entries: &mut Vec<ReviewEntry>,
+    ) {
+        let want = limit.saturating_sub(entries.len());
+        let n = steps.t.len().min(scores.len());
+        if want == 0 || n == 0 {
+            return;
+        }
+        let mut taken = vec![false; n];
+        for &r in judged.iter().chain(entries.iter().map(|e| &e.row)) {
+            if let Some(x) = taken.get_mut(r) {
+                *x = true;
+            }
+        }
+        let size: Vec<f64> = taken.iter().map(|&t| if t { 0.0 } else { 1.0 }).collect();
+        let (rows, pi) = super::sampling::draw(&size, want, self.settings.seed);
+        for row in rows {
+            let reasons = vec![Reason::Sampled];
+            let priority = priority(&reasons, scores.novelty[row], scores.threshold);
+            entries.push(ReviewEntry {
+                pick: entries.len(),
+                row,
+                episode: steps.episode_of(row),
+                t: steps.t[row],
+                reasons,
+                priority,
+                novelty: scores.novelty[row],
+                p_value: scores.p_value[row],
+                action_gap: scores.action_gap[row],
+                distance: f32::NAN,
+                inclusion: pi[row],
+            });
         }
     }
 
@@ -393,6 +588,7 @@ impl Planner {
             p_value: scores.p_value[c.row],
             action_gap: scores.action_gap[c.row],
             distance,
+            inclusion: 1.0,
         }
     }
 }

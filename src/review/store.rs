@@ -51,6 +51,7 @@ pub fn write_review_list<W: Write>(
             "p_value": finite(e.p_value),
             "action_gap": finite(e.action_gap),
             "distance": finite(e.distance),
+            "inclusion": e.inclusion,
         });
         serde_json::to_writer(&mut w, &line)?;
         w.write_all(b"\n")?;
@@ -92,16 +93,8 @@ struct SavedLine {
     reasons: Vec<String>,
 }
 
-const REASONS: [Reason; 5] = [
-    Reason::ExcursionOnset,
-    Reason::ExcursionPeak,
-    Reason::BeforeIntervention,
-    Reason::ActionGap,
-    Reason::InsideExcursion,
-];
-
 fn reason_named(name: &str) -> Option<Reason> {
-    REASONS.into_iter().find(|r| r.as_str() == name)
+    Reason::named(name)
 }
 
 /// Reads a round's saved review list (in rank order) and finds each entry in `steps`; refuses

@@ -20,7 +20,7 @@ use crate::campaign::{Spec, StepTable};
 use crate::ledger::{AnnotatorLedger, Record, Verdict, standing};
 use crate::novelty::RoundScores;
 use crate::review::store::{SavedEntry, load_review_list, review_list_path};
-use crate::review::{PlanSettings, Planner, Reason, states_of_rows};
+use crate::review::{PlanSettings, Planner, Reason};
 
 /// Where an entry of the review list stands for the annotator.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -332,9 +332,8 @@ impl Sitting {
     ) -> Vec<SittingEntry> {
         let mut seeds: Vec<usize> = own.iter().map(|j| j.row).collect();
         seeds.extend_from_slice(others);
-        let states = states_of_rows(steps, &seeds);
         let limit = self.budget.saturating_sub(own.len());
-        let list = self.planner.plan_up_to(steps, scores, &states, limit);
+        let list = self.planner.plan_judged(steps, scores, &seeds, limit);
         self.covering_radius = list.covering_radius;
         list.entries
             .into_iter()

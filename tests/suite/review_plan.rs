@@ -8,7 +8,7 @@ use countersteer::novelty::synth::{SynthSpec, campaign, trajectories};
 use countersteer::novelty::{RoundScores, build_model, score_round};
 use countersteer::progress::Progress;
 use countersteer::review::kcenter::dist;
-use countersteer::review::{PlanSettings, Planner, Reason, plan, states_of_rows};
+use countersteer::review::{PlanNote, PlanSettings, Planner, Reason, plan, states_of_rows};
 
 fn scored() -> (StepTable, RoundScores) {
     let mut expert = SynthSpec::expert(40, 120, 6, 31);
@@ -170,7 +170,13 @@ fn fillers_spend_the_budget_only_after_the_other_candidates() {
     );
     // Every non-filler candidate is picked (or dropped by the gap) before the first filler:
     // the first picks are exactly the list made without fillers.
-    let mut by_pick = with.entries.clone();
+    // The fillers' shortfall (if any) is drawn from the visited steps: those come last.
+    let mut by_pick: Vec<_> = with
+        .entries
+        .iter()
+        .filter(|e| e.reasons != [Reason::Sampled])
+        .cloned()
+        .collect();
     by_pick.sort_by_key(|e| e.pick);
     let n = without.entries.len();
     assert!(by_pick[..n].iter().all(|e| !filler(e)));
@@ -196,4 +202,126 @@ fn fillers_spend_the_budget_only_after_the_other_candidates() {
     for w in by_pick[n..].windows(2) {
         assert!(w[1].distance <= w[0].distance);
     }
+}
+
+#[test]
+fn the_budget_is_spent_and_the_shortfall_is_drawn_with_its_probability() {
+    let (steps, s) = scored();
+    let n = steps.len();
+    // More budget than the focused candidates can fill: the rest is drawn uniformly from the
+    // steps not yet on the list, each with probability (rest) / (steps left), and a note says so.
+    let settings = PlanSettings {
+        budget: 600,
+        ..Default::default()
+    };
+    let list = plan(&steps, &s, &[], &settings);
+    assert_eq!(list.entries.len(), 600);
+    let sampled: Vec<_> = list
+        .entries
+        .iter()
+        .filter(|e| e.reasons == [Reason::Sampled])
+        .collect();
+    let focused = 600 - sampled.len();
+    assert!(!sampled.is_empty() && focused > 0, "{focused} focused");
+    let expected = sampled.len() as f64 / (n - focused) as f64;
+    for e in &sampled {
+        assert!((e.inclusion - expected).abs() < 1e-12, "{}", e.inclusion);
+    }
+    assert!(
+        list.entries
+            .iter()
+            .all(|e| e.reasons == [Reason::Sampled] || e.inclusion == 1.0)
+    );
+    assert_eq!(
+        list.notes,
+        vec![PlanNote::FocusedShort {
+            planned: focused,
+            share: 600,
+            drawn: true
+        }]
+    );
+    let mut rows: Vec<usize> = list.entries.iter().map(|e| e.row).collect();
+    rows.sort_unstable();
+    rows.dedup();
+    assert_eq!(rows.len(), 600, "no step twice");
+    // With filling off the shortfall stays unspent, and the note says so.
+    let unfilled = plan(
+        &steps,
+        &s,
+        &[],
+        &PlanSettings {
+            fill: false,
+            ..settings.clone()
+        },
+    );
+    assert!(
+        unfilled
+            .entries
+            .iter()
+            .all(|e| e.reasons != [Reason::Sampled])
+    );
+    assert!(matches!(
+        unfilled.notes[..],
+        [PlanNote::FocusedShort { drawn: false, .. }]
+    ));
+    // A budget above the round's size: every step once, and the note names the shortfall.
+    let all = plan(
+        &steps,
+        &s,
+        &[],
+        &PlanSettings {
+            budget: n + 5,
+            ..Default::default()
+        },
+    );
+    assert_eq!(all.entries.len(), n);
+    assert!(all.notes.contains(&PlanNote::RoundShort {
+        planned: n,
+        budget: n + 5
+    }));
+}
+
+#[test]
+fn a_sample_share_draws_spread_steps_never_judged_ones() {
+    let (steps, s) = scored();
+    let n = steps.len();
+    let settings = PlanSettings {
+        budget: 40,
+        sample_share: 0.5,
+        seed: 7,
+        ..Default::default()
+    };
+    let planner = Planner::new(&steps, &s, &settings);
+    let judged: Vec<usize> = (0..n).step_by(3).collect();
+    let list = planner.plan_judged(&steps, &s, &judged, 40);
+    let (sampled, focused): (Vec<_>, Vec<_>) = list
+        .entries
+        .iter()
+        .partition(|e| e.reasons == [Reason::Sampled]);
+    assert_eq!((sampled.len(), focused.len()), (20, 20));
+    assert!(sampled.iter().all(|e| !judged.contains(&e.row)));
+    // Systematic sampling in row order: one draw per 1/p rows of the steps left, so the
+    // sampled rows reach across the round (the first and the last twentieth each hold one).
+    let mut rows: Vec<usize> = sampled.iter().map(|e| e.row).collect();
+    rows.sort_unstable();
+    assert!(rows[0] < n / 10 && rows[19] > n - n / 10, "{rows:?}");
+    let episodes: std::collections::BTreeSet<usize> = sampled.iter().map(|e| e.episode).collect();
+    assert!(episodes.len() >= 15, "{episodes:?}");
+    // The same seed gives the same list; another seed another draw.
+    // (Rows compared: a sampled entry's distance is NaN, which never equals itself.)
+    let rows_of = |l: &countersteer::review::ReviewList| -> Vec<usize> {
+        l.entries.iter().map(|e| e.row).collect()
+    };
+    let again = planner.plan_judged(&steps, &s, &judged, 40);
+    assert_eq!(rows_of(&again), rows_of(&list));
+    let other = Planner::new(
+        &steps,
+        &s,
+        &PlanSettings {
+            seed: 8,
+            ..settings
+        },
+    )
+    .plan_judged(&steps, &s, &judged, 40);
+    assert_ne!(rows_of(&other), rows_of(&list));
 }
