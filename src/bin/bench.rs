@@ -225,12 +225,11 @@ fn w1_parts(a: &Args) {
     let inv: Vec<f32> = scales(&demos).iter().map(|s| 1.0 / s).collect();
     let split = split_episodes(&demos).expect("split");
     let fit_rows: Vec<u32> = split
-        .fit
+        .fit_of(0)
         .iter()
         .flat_map(|&e| demos.episodes[e].rows().map(|r| r as u32))
         .collect();
-    let cal: Vec<usize> = split
-        .calibration
+    let cal: Vec<usize> = split.folds[0]
         .iter()
         .flat_map(|&e| demos.episodes[e].rows().step_by(10))
         .collect();

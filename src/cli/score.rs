@@ -115,6 +115,7 @@ fn summary_json(
     json!({
         "demonstration_states": c.demonstrations.len(),
         "calibration_episodes": split.calibration.len(),
+        "calibration_folds": split.folds.len(),
         "calibration_states": model.conformal().len(),
         "k": model.k(),
         "alpha": model.alpha(),
@@ -185,8 +186,9 @@ fn print_summary(
         model.index().path()
     );
     say!(
-        "  calibration: {} held-out episodes, {} states; k = {}, alpha = {}",
+        "  calibration: {} episodes in {} folds (cross-conformal), {} states; k = {}, alpha = {}",
         split.calibration.len(),
+        split.folds.len(),
         model.conformal().len(),
         model.k(),
         model.alpha()

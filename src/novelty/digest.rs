@@ -10,8 +10,8 @@ use crate::campaign::{Campaign, StepTable};
 
 /// Changes whenever the way a model is built or a round is scored changes, so that scores
 /// saved by an older version are made again (3: scales that cannot collapse, feature kinds and
-/// per-phase calibration).
-pub const MODEL_VERSION: &str = "countersteer-novelty-3";
+/// per-phase calibration; 4: cross-conformal calibration over episode folds).
+pub const MODEL_VERSION: &str = "countersteer-novelty-4";
 
 /// The first 16 hex digits of a finished hash.
 fn hex(h: Sha256) -> String {

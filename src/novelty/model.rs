@@ -1,20 +1,26 @@
 //! The novelty model: scales, the index over every demonstration, and the conformal
 //! calibration made on held-out demonstration episodes.
 //!
-//! **Episode split.** Demonstration episodes (never single steps: neighbouring steps are
+//! **Episode folds.** Demonstration episodes (never single steps: neighbouring steps are
 //! near-copies, and a held-out step would find its own neighbours in the fit part, making every
-//! threshold too small) are ordered by a hash of their name and the first
-//! [`CALIBRATION_SHARE`] of them (at least one, leaving at least one) become the calibration
-//! part. The split depends only on the episode names, so it is the same on every run and does
-//! not change when files are renamed or reordered.
+//! threshold too small) are ordered by a hash of their name and dealt into
+//! `min(`[`CALIBRATION_FOLDS`]`, episodes)` folds. The folds depend only on the episode names,
+//! so they are the same on every run and do not change when files are renamed or reordered.
 //!
-//! **Calibration.** An index over the fit episodes scores the calibration episodes' steps (up
-//! to [`CALIBRATION_CAP`] steps, taken at an even stride within each phase). A fresh expert
-//! episode is exchangeable with the calibration episodes, and a uniformly chosen step of one
-//! phase of it (a range of positions from the episode's start, see [`super::phase`]) is
-//! exchangeable with a uniformly chosen calibration step of the same phase, which is what the
-//! per-phase (Mondrian) conformal guarantee needs. The pooled calibration (every phase
-//! together) is kept for comparison.
+//! **Calibration (cross-conformal).** Every episode calibrates: for each fold, an index over
+//! the other folds' episodes scores the fold's steps (up to [`CALIBRATION_CAP`] steps in all,
+//! taken at an even stride within each phase), and the novelties of all folds are pooled
+//! (cross-conformal prediction, Vovk 2015, "Cross-conformal predictors", Annals of Mathematics
+//! and Artificial Intelligence 74; its worst-case level is 2 alpha, Barber, Candès, Ramdas &
+//! Tibshirani 2021, "Predictive inference with the jackknife+", and close to alpha in
+//! practice). Steps within an episode are strongly correlated, so what sets the spread of the
+//! realised flag rate is the number of calibrating *episodes*: a held-out fifth of ten
+//! demonstrations left two, and fresh expert start states were flagged far above alpha; with
+//! every episode calibrating the rate stays near alpha. A fresh expert episode is exchangeable
+//! with each calibrating episode, and a uniformly chosen step of one phase of it (a range of
+//! positions from the episode's start, see [`super::phase`]) with a calibration step of the
+//! same phase, which is what the per-phase (Mondrian) conformal guarantee needs. The pooled
+//! calibration (every phase together) is kept for comparison.
 //!
 //! **Scoring index.** Rollouts are scored against an index over ALL demonstrations (more
 //! neighbours, better action estimates). Adding points to an index can only shrink a k-th
@@ -31,18 +37,38 @@ use super::scale::{ScaleOrigin, scales_with_origin};
 use crate::campaign::{Campaign, StepTable};
 use crate::progress::Progress;
 
-/// Share of demonstration episodes held out for calibration.
-pub const CALIBRATION_SHARE: f64 = 0.2;
+/// Folds of demonstration episodes for the cross-conformal calibration (fewer when there are
+/// fewer episodes): each fold is scored against an index over the others.
+pub const CALIBRATION_FOLDS: usize = 5;
 /// Most calibration steps scored (more only sharpen p-values beyond their 1/(n+1) grain).
 pub const CALIBRATION_CAP: usize = 20_000;
 
-/// Which demonstration episodes fit the calibration index and which calibrate it.
+/// How demonstration episodes are dealt into calibration folds (see the module documentation).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct EpisodeSplit {
-    /// Episode indices of the fit part, ascending.
-    pub fit: Vec<usize>,
-    /// Episode indices of the calibration part, ascending.
+    /// Episode indices of each fold, ascending within a fold.
+    pub folds: Vec<Vec<usize>>,
+    /// Episode indices that calibrate (every episode), ascending.
     pub calibration: Vec<usize>,
+}
+
+impl EpisodeSplit {
+    /// The split from stored folds (the calibrating episodes are their union).
+    pub fn from_folds(folds: Vec<Vec<usize>>) -> Self {
+        let mut calibration: Vec<usize> = folds.iter().flatten().copied().collect();
+        calibration.sort_unstable();
+        EpisodeSplit { folds, calibration }
+    }
+
+    /// Episode indices outside fold `f` (the episodes its index is built over), ascending.
+    pub fn fit_of(&self, f: usize) -> Vec<usize> {
+        let mut fit: Vec<usize> = (0..self.folds.len())
+            .filter(|&g| g != f)
+            .flat_map(|g| self.folds[g].iter().copied())
+            .collect();
+        fit.sort_unstable();
+        fit
+    }
 }
 
 /// A built novelty model (see the module documentation for how it is made).
@@ -73,12 +99,15 @@ pub fn split_episodes(demos: &StepTable) -> Result<EpisodeSplit, NoveltyError> {
     }
     let mut order: Vec<usize> = (0..m).collect();
     order.sort_by_key(|&e| (fnv1a(demos.episodes[e].name.as_bytes()), e));
-    let n_cal = ((m as f64 * CALIBRATION_SHARE).ceil() as usize).clamp(1, m - 1);
-    let mut calibration = order[..n_cal].to_vec();
-    let mut fit = order[n_cal..].to_vec();
-    calibration.sort_unstable();
-    fit.sort_unstable();
-    Ok(EpisodeSplit { fit, calibration })
+    let n_folds = CALIBRATION_FOLDS.min(m);
+    let mut folds = vec![Vec::new(); n_folds];
+    for (i, e) in order.into_iter().enumerate() {
+        folds[i % n_folds].push(e);
+    }
+    for f in &mut folds {
+        f.sort_unstable();
+    }
+    Ok(EpisodeSplit::from_folds(folds))
 }
 
 fn rows_of(demos: &StepTable, episodes: &[usize]) -> Vec<u32> {
@@ -121,35 +150,20 @@ pub fn build_model_from(
     let starts = calibration_phases(demos, &split, alpha);
     let cal_rows = calibration_rows(demos, &split.calibration, &starts);
     check_phases(alpha, &phase_counts(demos, &cal_rows, &starts))?;
-    let fit_rows = rows_of(demos, &split.fit);
-    if k == 0 || fit_rows.len() < k {
+    let smallest_fit = (0..split.folds.len())
+        .map(|f| rows_of(demos, &split.fit_of(f)).len())
+        .min()
+        .unwrap_or(0);
+    if k == 0 || smallest_fit < k {
         return Err(NoveltyError::TooFewStates {
             k,
-            states: fit_rows.len(),
+            states: smallest_fit,
         });
     }
     let inv_scale: Vec<f32> = scale.iter().map(|s| 1.0 / s).collect();
-    progress.stage("indexing", 2);
-    let fit =
-        KnnIndex::build(&demos.states, d, &inv_scale, &fit_rows).map_err(NoveltyError::Index)?;
-    progress.advance(1);
-    let hits = seeded_knn(
-        &fit,
-        &inv_scale,
-        demos,
-        &cal_rows,
-        k,
-        "calibrating",
-        progress,
-    )?;
-    let novelties: Vec<f32> = hits.chunks_exact(k).map(kth_distance).collect();
-    let at: Vec<(usize, f32)> = cal_rows
-        .iter()
-        .map(|&r| demos.position(r))
-        .zip(novelties.iter().copied())
-        .collect();
+    let at = cross_calibrate(demos, &split, &cal_rows, &inv_scale, k, progress)?;
+    let novelties: Vec<f32> = at.iter().map(|&(_, n)| n).collect();
     let phased = PhasedConformal::new(&at, starts, alpha);
-    drop(fit);
     let all: Vec<u32> = (0..demos.len() as u32).collect();
     progress.stage("indexing", 1);
     let index = KnnIndex::build(&demos.states, d, &inv_scale, &all).map_err(NoveltyError::Index)?;
@@ -164,6 +178,47 @@ pub fn build_model_from(
         k,
         split,
     })
+}
+
+/// Each fold's calibration rows scored against an index over the other folds: (position in
+/// the episode, novelty) for every row of `cal_rows`, fold by fold.
+fn cross_calibrate(
+    demos: &StepTable,
+    split: &EpisodeSplit,
+    cal_rows: &[usize],
+    inv_scale: &[f32],
+    k: usize,
+    progress: &Progress,
+) -> Result<Vec<(usize, f32)>, NoveltyError> {
+    let mut fold_of = vec![0usize; demos.episodes.len()];
+    for (f, fold) in split.folds.iter().enumerate() {
+        for &e in fold {
+            fold_of[e] = f;
+        }
+    }
+    let mut at = Vec::with_capacity(cal_rows.len());
+    for f in 0..split.folds.len() {
+        let rows: Vec<usize> = cal_rows
+            .iter()
+            .copied()
+            .filter(|&r| fold_of[demos.episode_of(r)] == f)
+            .collect();
+        if rows.is_empty() {
+            continue;
+        }
+        progress.stage("indexing", 1);
+        let fit_rows = rows_of(demos, &split.fit_of(f));
+        let fit = KnnIndex::build(&demos.states, demos.state_dim, inv_scale, &fit_rows)
+            .map_err(NoveltyError::Index)?;
+        progress.advance(1);
+        let hits = seeded_knn(&fit, inv_scale, demos, &rows, k, "calibrating", progress)?;
+        at.extend(
+            rows.iter()
+                .map(|&r| demos.position(r))
+                .zip(hits.chunks_exact(k).map(kth_distance)),
+        );
+    }
+    Ok(at)
 }
 
 /// The calibration phases' starts for a split and alpha (see [`super::phase`]).

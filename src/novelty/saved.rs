@@ -52,7 +52,7 @@ pub const MODEL_FILE: &str = "model.bin";
 /// The file's first eight bytes.
 pub const MAGIC: &[u8; 8] = b"CSNOVMDL";
 /// The format version this code writes and reads.
-pub const FORMAT_VERSION: u32 = 2;
+pub const FORMAT_VERSION: u32 = 3;
 
 /// `analysis/model.bin` of a campaign.
 pub fn model_path(root: &Path) -> PathBuf {
@@ -121,7 +121,7 @@ pub struct Header {
     pub demonstration_episodes: usize,
     /// [`fingerprint`] of those demonstrations (64 hex digits).
     pub fingerprint: String,
-    /// Episode indices of the calibration split (see [`super::model`]).
+    /// The calibration folds of episode indices (see [`super::model`]).
     pub split: SplitHeader,
     /// Number of calibration novelties stored after the scales.
     pub calibration_scores: usize,
@@ -135,13 +135,11 @@ pub struct Header {
     pub index: String,
 }
 
-/// The episode split as stored in the header.
+/// The episode folds as stored in the header.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct SplitHeader {
-    /// Fit episodes, ascending.
-    pub fit: Vec<usize>,
-    /// Calibration episodes, ascending.
-    pub calibration: Vec<usize>,
+    /// Each fold's episodes, ascending.
+    pub folds: Vec<Vec<usize>>,
 }
 
 /// SHA-256 of a demonstration table as 64 hex digits: dimensions, then every episode's name
@@ -187,8 +185,7 @@ pub fn encode(model: &NoveltyModel, demos: &StepTable) -> Vec<u8> {
         demonstration_episodes: demos.episodes.len(),
         fingerprint: fingerprint(demos),
         split: SplitHeader {
-            fit: split.fit.clone(),
-            calibration: split.calibration.clone(),
+            folds: split.folds.clone(),
         },
         calibration_scores: model.conformal().len(),
         phase_start: model.phased().starts().to_vec(),
@@ -390,10 +387,7 @@ pub fn load_model(path: &Path, demos: &StepTable) -> Result<NoveltyModel, ModelF
             describe(demos.len(), demos.episodes.len(), &now),
         ));
     }
-    let split = EpisodeSplit {
-        fit: d.header.split.fit,
-        calibration: d.header.split.calibration,
-    };
+    let split = EpisodeSplit::from_folds(d.header.split.folds);
     let alpha = d.header.alpha;
     let conformal = Conformal::new(d.calibration, alpha);
     let parts = d.phases.into_iter().map(|p| Conformal::new(p, alpha));

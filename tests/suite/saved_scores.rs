@@ -159,11 +159,12 @@ fn the_reuse_rule_compares_both_fingerprints() {
 
 #[test]
 fn alpha_below_the_p_value_floor_is_refused_naming_the_smallest_alpha() {
-    // 30 demonstration episodes of 100 steps: 6 are held out, 600 calibration states, so the
-    // smallest p-value is 1/601 = 0.0016639 (by hand), shown rounded up as 0.001664.
+    // 30 demonstration episodes of 100 steps, every one calibrating (cross-conformal folds):
+    // 3,000 calibration states, so the smallest p-value is 1/3001 = 0.00033322 (by hand),
+    // shown rounded up as 0.0003333.
     let dir = tempfile::tempdir().unwrap();
     make_campaign(dir.path());
-    set_alpha(dir.path(), 0.0005);
+    set_alpha(dir.path(), 0.0002);
     let d = dir.path().to_str().unwrap();
     for args in [
         vec!["check", d],
@@ -173,15 +174,15 @@ fn alpha_below_the_p_value_floor_is_refused_naming_the_smallest_alpha() {
         let (ok, _, err) = run(&args);
         assert!(!ok, "{args:?}");
         assert!(
-            err.contains("alpha = 0.0005 is below what 600 calibration state(s) can resolve")
-                && err.contains("the smallest reachable alpha is 0.001664"),
+            err.contains("alpha = 0.0002 is below what 3000 calibration state(s) can resolve")
+                && err.contains("the smallest reachable alpha is 0.0003333"),
             "{args:?}: {err}"
         );
     }
     let c = load(dir.path());
     match build_model(&c, &Progress::new()) {
         Err(NoveltyError::AlphaBelowFloor { n, smallest, .. }) => {
-            assert_eq!((n, smallest.as_str()), (600, "0.001664"));
+            assert_eq!((n, smallest.as_str()), (3000, "0.0003333"));
         }
         other => panic!("{other:?}"),
     }

@@ -67,8 +67,12 @@ fn the_window_scores_again_when_the_saved_scores_have_another_alpha() {
         scored.source
     );
     // The flag rule of the saved-scores format: flagged = p-value <= alpha.
+    // (p is stored as f32: a p-value of exactly 1/20 reads back a hair above 0.05, so a
+    // step at the tie is allowed either way.)
     for (p, f) in s.p_value.iter().zip(&s.flagged) {
-        assert_eq!(*f, f64::from(*p) <= 0.05, "p = {p}");
+        if (f64::from(*p) - 0.05).abs() > 1e-7 {
+            assert_eq!(*f, f64::from(*p) <= 0.05, "p = {p}");
+        }
     }
 }
 
