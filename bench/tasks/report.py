@@ -19,35 +19,72 @@ def bootstrap_ci(x, resamples=RESAMPLES, seed=BOOT_SEED):
     return x.mean(), lo, hi
 
 
+def bootstrap_ci_2(x, resamples=RESAMPLES, seed=BOOT_SEED):
+    """Mean and 95 % percentile interval of a (replicates, episodes) array by a two-stage
+    bootstrap: replicates with replacement, then episodes within each (Davison & Hinkley
+    1997, Bootstrap Methods and their Application, section 3.8). With one replicate it is
+    the plain bootstrap over episodes."""
+    x = np.asarray(x, dtype=float)
+    if x.ndim == 1 or x.shape[0] == 1:
+        return bootstrap_ci(x.ravel(), resamples, seed)
+    rng = np.random.default_rng(seed)
+    n_rep, n_ep = x.shape
+    means = np.empty(resamples)
+    for b in range(0, resamples, 500):
+        m = min(500, resamples - b)
+        reps = rng.integers(0, n_rep, size=(m, n_rep))
+        eps = rng.integers(0, n_ep, size=(m, n_rep, n_ep))
+        means[b:b + m] = x[reps[:, :, None], eps].mean(axis=(1, 2))
+    lo, hi = np.percentile(means, [2.5, 97.5])
+    return x.mean(), lo, hi
+
+
 def summarise(rows, strategies):
     """Per (learner, budget, round, strategy): success and return with intervals, labels,
-    and the paired difference in success against the mean of random's selection seeds."""
+    and the paired difference in success against the mean of random's selection seeds of the
+    same replicate. Intervals come from the two-stage bootstrap over replicates and
+    evaluation episodes, so they include the spread between independent repeats of the loop
+    (which one labelled set cannot show)."""
     by = {}
     for r in rows:
-        key = (r["learner"], r["budget"], r["round"], r["strategy"], r["sel_seed"])
+        key = (r["learner"], r["budget"], r["round"], r["strategy"], r.get("replicate", 0),
+               r["sel_seed"])
         by.setdefault(key, {"success": [], "return": [], "labels": r["labels"]})
         by[key]["success"].append(r["success"])
         by[key]["return"].append(r["return"])
     out = []
     cells = sorted({k[:3] for k in by})
     for learner, budget, rnd in cells:
-        rand = [np.array(v["success"], float) for k, v in by.items()
-                if k[:4] == (learner, budget, rnd, "random")]
-        rand_mean = np.mean(rand, axis=0) if rand else None
+        reps = sorted({k[4] for k in by if k[:3] == (learner, budget, rnd)})
+
+        def per_rep(s, field, only=None):
+            """(replicates, episodes): the mean over selection seeds in each replicate that
+            has the strategy (and is in `only`), and those replicates."""
+            got, used = [], []
+            for rep in reps if only is None else only:
+                runs = [np.array(v[field], float) for k, v in by.items()
+                        if k[:5] == (learner, budget, rnd, s, rep)]
+                if runs:
+                    got.append(np.mean(runs, axis=0))
+                    used.append(rep)
+            return (np.array(got) if got else None), used
+
         for s in strategies:
-            runs = [v for k, v in by.items() if k[:4] == (learner, budget, rnd, s)]
-            if not runs:
+            succ, used = per_rep(s, "success")
+            if succ is None:
                 continue
-            succ = np.mean([np.array(v["success"], float) for v in runs], axis=0)
-            ret = np.mean([np.array(v["return"], float) for v in runs], axis=0)
-            m, lo, hi = bootstrap_ci(succ)
-            rm, rlo, rhi = bootstrap_ci(ret)
+            ret, _ = per_rep(s, "return")
+            rand_mean, rand_used = per_rep("random", "success", used)
+            runs = [v for k, v in by.items() if k[:4] == (learner, budget, rnd, s)]
+            m, lo, hi = bootstrap_ci_2(succ)
+            rm, rlo, rhi = bootstrap_ci_2(ret)
             row = dict(learner=learner, budget=budget, round=rnd, strategy=s,
                        success=m, lo=lo, hi=hi, ret=rm, ret_lo=rlo, ret_hi=rhi,
                        labels=np.mean([v["labels"] for v in runs]), diff=np.nan,
                        diff_lo=np.nan, diff_hi=np.nan)
             if rand_mean is not None and s != "random":
-                row["diff"], row["diff_lo"], row["diff_hi"] = bootstrap_ci(succ - rand_mean)
+                mine = succ[[used.index(r) for r in rand_used]]
+                row["diff"], row["diff_lo"], row["diff_hi"] = bootstrap_ci_2(mine - rand_mean)
             out.append(row)
     return out
 

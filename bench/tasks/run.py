@@ -30,9 +30,9 @@ DEMO_SEED, ROLLOUT_SEED, EVAL_SEED, FRESH_SEED = 10_000, 20_000, 50_000, 90_000
 def settings(args):
     if args.quick:
         return dict(demos=args.demos or TASKS[args.task].demos, rollouts=15, rounds=2, evals=40, random_seeds=2,
-                    budgets=[0.05], learners=args.learners or ["knn"])
+                    budgets=[0.05], learners=args.learners or ["knn"], replicates=1)
     return dict(demos=args.demos or TASKS[args.task].demos, rollouts=args.rollouts, rounds=args.rounds, evals=args.evals,
-                random_seeds=args.random_seeds, budgets=args.budgets,
+                random_seeds=args.random_seeds, budgets=args.budgets, replicates=args.replicates,
                 learners=args.learners or list(learners.LEARNERS))
 
 
@@ -48,13 +48,13 @@ class Envs:
         return rollout(self.task, self.envs[: len(seeds)], seeds, policy)
 
 
-def choose(strategy, camp, k, r, names, budget, sel_seed):
+def choose(strategy, camp, k, r, names, budget, sel_seed, replicate):
     """Rows of round k chosen by a strategy for labelling."""
     n = len(r.t)
     if strategy == "dagger":
         return np.arange(n)
     if strategy == "random":
-        rng = np.random.default_rng([sel_seed, k])
+        rng = np.random.default_rng([sel_seed, k] + ([replicate] if replicate else []))
         return np.sort(rng.choice(n, size=min(budget, n), replace=False))
     if strategy == "novelty":
         s = camp.score(k)
@@ -63,23 +63,25 @@ def choose(strategy, camp, k, r, names, budget, sel_seed):
         camp.score(k)
         row = {(e, int(t)): i for i, (e, t) in enumerate(zip(names, r.t))}
         extra = [] if strategy == "review" else ["--sample-share", int(strategy[8:]) / 100]
+        extra += ["--seed", replicate]
         return np.array([row[p] for p in camp.plan(k, budget, *extra)], dtype=int)
     raise ValueError(strategy)
 
 
 def one_run(ctx, learner, strategy, frac, sel_seed, round0):
-    """Rounds 1..R of one (learner, strategy, budget, selection seed); per-episode rows."""
-    task, cfg, pool = ctx["task"], ctx["cfg"], ctx["pool"]
-    tag = f"{learner}-{strategy}-{frac if strategy != 'dagger' else 'all'}-s{sel_seed}"
+    """Rounds 1..R of one (learner, strategy, budget, selection seed) in the context's
+    replicate; per-episode rows."""
+    task, cfg, pool, rep_ = ctx["task"], ctx["cfg"], ctx["pool"], ctx["replicate"]
+    tag = f"{learner}-{strategy}-{frac if strategy != 'dagger' else 'all'}-s{sel_seed}-r{rep_}"
     camp = Campaign(ctx["exe"], ctx["out"] / "campaigns" / tag, task)
     camp.create(ctx["demos"], f"{task.name} {tag}")
     policy, labels, rows = round0, 0, []
     for k in range(1, cfg["rounds"] + 1):
-        seeds = ROLLOUT_SEED + 1000 * k + np.arange(cfg["rollouts"])
+        seeds = ROLLOUT_SEED + 1000 * k + 100 * rep_ + np.arange(cfg["rollouts"])
         r = pool.run(seeds, policy)
         names = camp.write_round(k, r)
         budget = max(1, int(round(frac * len(r.t))))
-        picked = choose(strategy, camp, k, r, names, budget, sel_seed)
+        picked = choose(strategy, camp, k, r, names, budget, sel_seed, rep_)
         labels += len(picked)
         camp.correct(k, names[picked], r.t[picked], pool.expert(r.states[picked].astype(float)))
         merged = camp.export(k)
@@ -87,14 +89,16 @@ def one_run(ctx, learner, strategy, frac, sel_seed, round0):
         policy = learners.fit(learner, merged["states"].astype(float),
                               merged["actions"].astype(float), weights)
         ev = pool.run(ctx["eval_seeds"], policy)
-        rows += outcome_rows(ev, learner, strategy, frac, sel_seed, k, labels, ctx["eval_seeds"])
+        rows += outcome_rows(ev, learner, strategy, frac, sel_seed, k, labels, ctx["eval_seeds"],
+                             rep_)
     if not ctx["keep"]:
         shutil.rmtree(camp.root, ignore_errors=True)
     return rows
 
 
-def outcome_rows(ev, learner, strategy, frac, sel_seed, k, labels, seeds):
-    return [dict(learner=learner, budget=frac, strategy=strategy, sel_seed=sel_seed, round=k,
+def outcome_rows(ev, learner, strategy, frac, sel_seed, k, labels, seeds, replicate):
+    return [dict(learner=learner, budget=frac, strategy=strategy, sel_seed=sel_seed,
+                 replicate=replicate, round=k,
                  labels=labels, eval_seed=int(s), success=int(ok), **{"return": float(ret)})
             for s, ok, ret in zip(seeds, ev.success, ev.returns)]
 
@@ -136,7 +140,11 @@ def main(argv=None):
                    help="expert demonstration episodes (default: the task's, see README)")
     p.add_argument("--rollouts", type=int, default=60, help="learner episodes per round")
     p.add_argument("--evals", type=int, default=200)
-    p.add_argument("--random-seeds", type=int, default=3)
+    p.add_argument("--random-seeds", type=int, default=2,
+                   help="random's selection seeds per replicate")
+    p.add_argument("--replicates", type=int, default=4,
+                   help="independent repeats of the whole loop (own demonstrations and "
+                        "rollouts; the same evaluation seeds), at most 10")
     p.add_argument("--weights", choices=["ignore", "use"], default="ignore",
                    help="fit with the export's `weight` column (when present) or ignore it")
     p.add_argument("--sample-shares", nargs="*", type=float, default=[],
@@ -169,13 +177,35 @@ def main(argv=None):
               f"difference {diff:.2e}, same success: {same}")
         if not same or diff > 1e-3:
             sys.exit("the NumPy copy of the environment's step disagrees with the environment")
-    demos = pool.run(DEMO_SEED + np.arange(cfg["demos"]), pool.expert)
+    if not (1 <= cfg["replicates"] <= 10 and cfg["rollouts"] <= 100 and cfg["demos"] <= 100):
+        sys.exit("--replicates must be 1..10, --rollouts and --demos at most 100 (seed blocks)")
     eval_seeds = EVAL_SEED + np.arange(cfg["evals"])
-    ctx = dict(task=task, cfg=cfg, pool=pool, exe=exe, out=out, demos=demos,
-               eval_seeds=eval_seeds, use_weights=args.weights == "use", keep=args.keep)
-    fresh = fresh_flag_rates(ctx)
     expert_ev = pool.run(eval_seeds, pool.expert)
-    rows = []
+    rows, fresh_all = [], []
+    for replicate in range(cfg["replicates"]):
+        demos = pool.run(DEMO_SEED + 100 * replicate + np.arange(cfg["demos"]), pool.expert)
+        ctx = dict(task=task, cfg=cfg, pool=pool, exe=exe, out=out, demos=demos,
+                   eval_seeds=eval_seeds, use_weights=args.weights == "use", keep=args.keep,
+                   replicate=replicate)
+        fresh_all.append(fresh_flag_rates(ctx))
+        run_replicate(ctx, args, eval_seeds, rows)
+    fresh = {key: float(np.mean([f[key] for f in fresh_all])) for key in fresh_all[0]}
+    finish(task, out, rows, started, exe)
+    print(f"expert on the evaluation seeds: success {expert_ev.success.mean():.3f}, "
+          f"mean return {expert_ev.returns.mean():.1f}")
+    print(f"fresh expert episodes scored as a round (alpha {fresh['alpha']}; mean of "
+          f"{len(fresh_all)} replicates, each "
+          + ", ".join(f"{f['first10']:.3f}/{f['rest']:.3f}" for f in fresh_all)
+          + f"): flagged {fresh['first10']:.3f} in the first 10 steps, {fresh['rest']:.3f} "
+          f"after, {fresh['overall']:.3f} overall")
+    if not args.keep:
+        shutil.rmtree(out / "campaigns", ignore_errors=True)
+
+
+def run_replicate(ctx, args, eval_seeds, rows):
+    """Every learner and strategy on one replicate's demonstrations and rollouts; appends
+    the per-episode rows to `rows` (written to episodes.csv as the runs finish)."""
+    cfg, pool, demos, out = ctx["cfg"], ctx["pool"], ctx["demos"], ctx["out"]
     for learner in cfg["learners"]:
         bc = learners.fit(learner, demos.states.astype(float), demos.actions.astype(float))
         ev0 = pool.run(eval_seeds, bc)
@@ -189,19 +219,12 @@ def main(argv=None):
             got = one_run(ctx, learner, strategy, frac if frac else 0.0, seed, bc)
             fracs = cfg["budgets"] if strategy == "dagger" else [frac]
             for f in fracs:  # full DAgger does not depend on the budget: shown beside each
-                rows += outcome_rows(ev0, learner, strategy, f, seed, 0, 0, eval_seeds)
+                rows += outcome_rows(ev0, learner, strategy, f, seed, 0, 0, eval_seeds,
+                                     ctx["replicate"])
                 rows += [dict(r, budget=f) for r in got]
-            print(f"  {learner} {strategy} {frac} seed {seed}: {time.time() - t0:.1f} s",
-                  file=sys.stderr)
+            print(f"  replicate {ctx['replicate']} {learner} {strategy} {frac} seed {seed}: "
+                  f"{time.time() - t0:.1f} s", file=sys.stderr)
             report.write_csv(out / "episodes.csv", rows)  # kept as the runs finish
-    finish(task, out, rows, started, exe)
-    print(f"expert on the evaluation seeds: success {expert_ev.success.mean():.3f}, "
-          f"mean return {expert_ev.returns.mean():.1f}")
-    print(f"fresh expert episodes scored as a round (alpha {fresh['alpha']}): flagged "
-          f"{fresh['first10']:.3f} in the first 10 steps, {fresh['rest']:.3f} after, "
-          f"{fresh['overall']:.3f} overall")
-    if not args.keep:
-        shutil.rmtree(out / "campaigns", ignore_errors=True)
 
 
 def strategies_of(rows):
@@ -233,6 +256,7 @@ def report_only(task, out):
     for r in rows:
         r["budget"] = float(r["budget"])
         r["sel_seed"], r["round"], r["labels"] = int(r["sel_seed"]), int(r["round"]), int(r["labels"])
+        r["replicate"] = int(r.get("replicate", 0))
         r["success"], r["return"] = int(r["success"]), float(r["return"])
     finish(task, out, rows, time.time(), "(from episodes.csv)")
 

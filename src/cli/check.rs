@@ -7,7 +7,9 @@ use clap::Args;
 use super::{CliError, json, progress_bar::Bar};
 use countersteer::campaign::summary::summarize_campaign;
 use countersteer::campaign::{LoadOptions, Severity, check_campaign};
-use countersteer::novelty::model::{calibration_count, check_alpha, without_spread};
+use countersteer::novelty::model::{
+    calibration_count, check_alpha, few_episodes_warning, without_spread,
+};
 use countersteer::novelty::scale::scales_with_origin;
 use countersteer::progress::Progress;
 use serde_json::{Value, json};
@@ -42,6 +44,10 @@ fn novelty_checks(c: &countersteer::campaign::Campaign) -> Result<usize, CliErro
             "warning: demonstrations: every demonstration state is the same; novelty is then \
              0 only for that state and every other state is flagged"
         );
+        return Ok(1);
+    }
+    if let Some(w) = few_episodes_warning(c.demonstrations.episodes.len()) {
+        tell!("warning: demonstrations: {w}");
         return Ok(1);
     }
     Ok(0)

@@ -47,7 +47,7 @@ fn every_phase_of_fresh_expert_episodes_is_flagged_at_most_alpha_plus_margin() {
     let steps = &c.rounds[0].steps;
     let s = score_round(&model, &c, steps, &p).unwrap();
     let phased = model.phased();
-    // 40 calibration episodes: 40 scores from the first step, then doubling.
+    // 200 calibrating episodes (every one, in 5 folds): phases from the first step, doubling.
     assert_eq!(phased.starts(), &[0, 1, 2, 4, 8, 16, 32, 64]);
     let m = margin(200, model.split().calibration.len());
     let share = |rows: &dyn Fn(usize) -> bool, flag: &dyn Fn(usize) -> bool| {
@@ -71,4 +71,29 @@ fn every_phase_of_fresh_expert_episodes_is_flagged_at_most_alpha_plus_margin() {
     assert!(f <= ALPHA + m, "first 10 steps: {f}");
     // The pooled calibration breaks the promise at the start: the data can tell them apart.
     assert!(before > ALPHA + m, "pooled first 10 steps: {before}");
+}
+
+#[test]
+fn every_episode_calibrates_and_few_episodes_are_warned_about() {
+    let p = Progress::new();
+    for (episodes, warned) in [(5, true), (12, false)] {
+        let demos = trajectories(&SynthSpec::expert(episodes, 60, 4, 7));
+        let mut fresh = SynthSpec::expert(4, 60, 4, 8);
+        fresh.prefix = "fresh".into();
+        let c = campaign(demos, trajectories(&fresh), 5, ALPHA);
+        let model = build_model(&c, &p).unwrap();
+        // Cross-conformal folds: min(5, episodes) folds, together every episode once.
+        let split = model.split();
+        assert_eq!(split.folds.len(), 5);
+        assert_eq!(split.calibration, (0..episodes).collect::<Vec<_>>());
+        let sizes: Vec<usize> = split.folds.iter().map(Vec::len).collect();
+        assert_eq!(sizes.iter().sum::<usize>(), episodes, "{sizes:?}");
+        assert!(sizes.iter().max().unwrap() - sizes.iter().min().unwrap() <= 1);
+        let w = model.warnings().join("\n");
+        assert_eq!(
+            w.contains(&format!("only {episodes} demonstration episode(s)")),
+            warned,
+            "{w}"
+        );
+    }
 }
