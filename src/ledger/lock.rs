@@ -9,10 +9,15 @@
 use std::fs::{File, OpenOptions, TryLockError};
 use std::io::{Read, Seek, Write};
 use std::path::Path;
+use std::time::Duration;
 
 use super::error::LedgerError;
 use super::time::utc_timestamp;
 use crate::durable::{host_name, is_link_error, open_nofollow};
+
+/// How long a refused writer keeps trying before it reports who holds the lock.
+const GRACE: Duration = Duration::from_millis(250);
+const POLL: Duration = Duration::from_millis(10);
 
 /// Takes the lock or says who holds it. The returned file holds the lock until dropped.
 pub(crate) fn acquire(lock_path: &Path, ledger_path: &Path) -> Result<File, LedgerError> {
@@ -37,15 +42,25 @@ pub(crate) fn acquire(lock_path: &Path, ledger_path: &Path) -> Result<File, Ledg
             path: lock_path.to_path_buf(),
         });
     }
-    match f.try_lock() {
-        Ok(()) => {}
-        Err(TryLockError::WouldBlock) => {
-            return Err(LedgerError::Locked {
-                path: ledger_path.to_path_buf(),
-                holder: holder_of(&mut f),
-            });
+    // A lock can stay held for an instant after its holder let it go: a process being
+    // started holds a copy of every open file between fork and exec, and an `flock` lives
+    // as long as any copy. A refusal is therefore only final after a short wait.
+    let mut waited = Duration::ZERO;
+    loop {
+        match f.try_lock() {
+            Ok(()) => break,
+            Err(TryLockError::WouldBlock) if waited < GRACE => {
+                std::thread::sleep(POLL);
+                waited += POLL;
+            }
+            Err(TryLockError::WouldBlock) => {
+                return Err(LedgerError::Locked {
+                    path: ledger_path.to_path_buf(),
+                    holder: holder_of(&mut f),
+                });
+            }
+            Err(TryLockError::Error(e)) => return Err(LedgerError::io(lock_path)(e)),
         }
-        Err(TryLockError::Error(e)) => return Err(LedgerError::io(lock_path)(e)),
     }
     let me = format!(
         "pid {} on host {} since {}",
